@@ -1,0 +1,5 @@
+"""`python -m propulsion` runs the command line."""
+
+from propulsion.cli import main
+
+main()

@@ -1,0 +1,57 @@
+"""The command line: a thin layer that parses arguments, calls a runner and shows the result.
+
+Each command lives in its own module and is registered on the main app here.
+Exit codes: 0 success, 1 the mission falls short of its targets, 2 bad input.
+"""
+
+from __future__ import annotations
+
+import typer
+
+from propulsion import __version__
+from propulsion.cli import budget as _budget
+from propulsion.cli import check as _check
+from propulsion.cli import data as _data
+from propulsion.cli.common import state
+
+__all__ = ["app", "main"]
+
+app = typer.Typer(
+    name="propulsion",
+    help=(
+        "Delta-v budgets with units, losses and margins for sounding rockets and small "
+        "launchers.\n\nExample: propulsion budget missions/hobby_single_stage.toml"
+    ),
+    no_args_is_help=True,
+    add_completion=False,
+    pretty_exceptions_enable=False,
+    rich_markup_mode="rich",
+)
+
+
+def _version(value: bool) -> None:
+    if value:
+        typer.echo(f"propulsion {__version__}")
+        raise typer.Exit()
+
+
+@app.callback()
+def _root(
+    debug: bool = typer.Option(
+        False, "--debug", help="Show the full traceback when something goes wrong."
+    ),
+    version: bool = typer.Option(
+        False, "--version", callback=_version, is_eager=True, help="Show the version and exit."
+    ),
+) -> None:
+    state.debug = debug
+
+
+app.command("budget")(_budget.budget_command)
+app.command("check")(_check.check_command)
+app.command("data")(_data.data_command)
+
+
+def main() -> None:
+    """Console-script entry point."""
+    app()

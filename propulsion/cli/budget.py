@@ -1,0 +1,35 @@
+"""`propulsion budget`: the ideal delta-v ledger of a mission file."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import typer
+
+from propulsion.cli.common import JSON_OPTION, UNITS_OPTION, UnitSystem, emit_json, guard, stdout
+
+
+def budget_command(
+    mission_file: Path = typer.Argument(..., help="Mission file (TOML).", show_default=False),
+    units: UnitSystem = UNITS_OPTION,
+    json_output: bool = JSON_OPTION,
+) -> None:
+    """Ideal delta-v budget: per stage and per leg, with margins and a verdict.
+
+    Example: propulsion budget missions/two_stage_competition.toml --units us
+
+    Exit code 0 when the mission meets its targets, 1 when it falls short, 2 on bad input.
+    """
+    from propulsion.budget import budget
+    from propulsion.mission import load_mission
+
+    with guard():
+        result = budget(load_mission(mission_file))
+    if json_output:
+        emit_json(result.to_dict())
+    else:
+        from propulsion.report.tables import budget_view
+
+        stdout().print(budget_view(result, units.display()))
+    if result.verdict.meets_targets is False:
+        raise typer.Exit(1)

@@ -1,0 +1,893 @@
+"""Mission files: reading, checking and converting them into SI model objects.
+
+A mission file is TOML with quantities written as text with units (``"2.4 kg"``). This
+module is the boundary: it reads the file, checks every field, converts quantities to SI
+floats once, and builds :class:`Mission`. Every problem is a
+:class:`~propulsion.errors.MissionError` that names the file, the field, the line where
+it can be found, and what was expected.
+"""
+
+from __future__ import annotations
+
+import copy
+import difflib
+import math
+import re
+import tomllib
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from propulsion import catalog
+from propulsion.errors import DataFileError, MissionError, MissionFileNotFoundError
+from propulsion.targets import TARGET_KINDS, Requirement, required_delta_v
+from propulsion.units import UnitParseError, parse_quantity
+from propulsion.vehicle import DragCurve, Engine, Motor, Stage, Vehicle
+
+__all__ = ["LaunchSite", "Leg", "Margins", "Mission", "load_mission", "parse_mission"]
+
+UNIT_HINTS = {
+    "mass": 'kg, g, lb or oz, for example "2.4 kg"',
+    "length": 'm, mm, km, ft or in, for example "98 mm"',
+    "area": 'm^2, cm^2 or in^2, for example "0.05 m^2"',
+    "time": 's or ms, for example "230 s"',
+    "speed": 'm/s, km/s or ft/s, for example "150 m/s"',
+    "force": 'N, kN or lbf, for example "1200 lbf"',
+    "angle": 'deg or rad, for example "85 deg"',
+    "dimensionless": 'a plain number or a percentage, for example "2 %"',
+}
+
+MAX_COUNT = 64
+"""Most motors or engines in one stage's cluster."""
+
+
+@dataclass(frozen=True)
+class LaunchSite:
+    """Where and how the vehicle leaves the ground (SI: m, rad)."""
+
+    altitude: float = 0.0
+    latitude: float | None = None
+    azimuth: float | None = None
+    rail_length: float | None = None
+    elevation: float = math.pi / 2
+
+
+@dataclass(frozen=True)
+class Leg:
+    """One mission leg: the stages that fly it and the delta-v it needs.
+
+    ``requirement.delta_v`` [m/s] excludes the leg's ``reserve`` [m/s].
+    """
+
+    name: str
+    stages: tuple[str, ...]
+    target: str
+    fields: dict[str, float]
+    requirement: Requirement
+    reserve: float = 0.0
+
+    @property
+    def required_delta_v(self) -> float:
+        """Delta-v the target needs, without the reserve [m/s]."""
+        return self.requirement.delta_v
+
+
+@dataclass(frozen=True)
+class Margins:
+    """Reserves and the margin the verdict is judged against.
+
+    ``required_margin`` is a delta-v [m/s] when ``required_margin_is_fraction`` is False,
+    else a fraction of the total required delta-v.
+    """
+
+    reserve: float = 0.0
+    residual_fraction: float = 0.0
+    required_margin: float = 0.0
+    required_margin_is_fraction: bool = False
+
+    def required_margin_delta_v(self, total_required: float) -> float:
+        """The required margin as a delta-v [m/s] for a given total requirement [m/s]."""
+        if self.required_margin_is_fraction:
+            return self.required_margin * total_required
+        return self.required_margin
+
+
+@dataclass(frozen=True)
+class Mission:
+    """A checked mission: vehicle, legs, margins and launch site, all in SI."""
+
+    name: str
+    vehicle: Vehicle
+    legs: tuple[Leg, ...]
+    margins: Margins
+    launch: LaunchSite
+    description: str = ""
+    source: str = "<mission>"
+    document: dict[str, Any] = field(default_factory=dict, repr=False, compare=False)
+
+    @property
+    def total_required_delta_v(self) -> float:
+        """Sum of leg requirements, leg reserves and the mission reserve [m/s]."""
+        legs = sum(leg.required_delta_v + leg.reserve for leg in self.legs)
+        return legs + self.margins.reserve
+
+
+def load_mission(path: str | Path) -> Mission:
+    """Read and check a mission file (TOML) and return the mission in SI units.
+
+    Parameters
+    ----------
+    path : str or Path
+        The mission file. Motor and drag-curve files it names are found relative to it.
+
+    Returns
+    -------
+    Mission
+
+    Raises
+    ------
+    MissionFileNotFoundError
+        The file, or a file it names, does not exist.
+    MissionError
+        Any problem with the content; the message names file, field, line and expectation.
+    """
+    path = Path(path)
+    if not path.is_file():
+        raise MissionFileNotFoundError(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except UnicodeDecodeError as exc:
+        raise MissionError(path, "", "the file is not UTF-8 text", "a TOML text file") from exc
+    return parse_mission(text, source=str(path), base_dir=path.parent)
+
+
+def parse_mission(
+    document: str | Mapping[str, Any],
+    source: str = "<mission>",
+    base_dir: str | Path | None = None,
+) -> Mission:
+    """Check a mission given as TOML text or as a dictionary, and build the Mission.
+
+    Parameters
+    ----------
+    document : str or Mapping
+        TOML text, or the dictionary ``tomllib`` would produce from it.
+    source : str
+        Name used in error messages (usually the file path).
+    base_dir : str or Path or None
+        Folder that relative file names are read from; the working folder when None.
+    """
+    text = document if isinstance(document, str) else ""
+    if isinstance(document, str):
+        try:
+            data = tomllib.loads(document)
+        except tomllib.TOMLDecodeError as exc:
+            line = _toml_error_line(str(exc))
+            raise MissionError(source, "", f"malformed TOML ({exc})", "valid TOML", line) from exc
+    elif isinstance(document, Mapping):
+        data = copy.deepcopy(dict(document))
+    else:
+        raise MissionError(source, "", "not a mission document", "TOML text or a dict")
+    base = Path(base_dir) if base_dir is not None else Path.cwd()
+    return _Builder(source, text, base).build(data)
+
+
+def _toml_error_line(message: str) -> int | None:
+    match = re.search(r"line (\d+)", message)
+    return int(match.group(1)) if match else None
+
+
+class _Table:
+    """A view of one TOML table that reads fields, checks them and names them in errors."""
+
+    def __init__(
+        self,
+        builder: _Builder,
+        data: Any,
+        path: tuple[str | int, ...],
+        allowed: set[str],
+    ) -> None:
+        self.builder = builder
+        self.path = path
+        if not isinstance(data, Mapping):
+            raise self.error("", f"is {_kind(data)}", "a table of fields")
+        self.data = data
+        for key in data:
+            if key not in allowed:
+                close = difflib.get_close_matches(str(key), sorted(allowed), n=1, cutoff=0.6)
+                hint = f"did you mean '{close[0]}'?" if close else ""
+                known = ", ".join(sorted(allowed))
+                raise self.error(
+                    str(key),
+                    "unknown field" + (f"; {hint}" if hint else ""),
+                    f"one of: {known}",
+                )
+
+    def name(self, key: str = "") -> str:
+        parts: list[str] = []
+        for part in self.path:
+            if isinstance(part, int):
+                parts[-1] += f"[{part + 1}]"
+            else:
+                parts.append(part)
+        if key:
+            parts.append(key)
+        return ".".join(parts)
+
+    def error(self, key: str, problem: str, expected: str = "") -> MissionError:
+        line = self.builder.locate(self.path, key)
+        return MissionError(self.builder.source, self.name(key), problem, expected, line)
+
+    def has(self, key: str) -> bool:
+        return key in self.data
+
+    def string(self, key: str, default: str | None = None, required: bool = False) -> str:
+        if key not in self.data:
+            if required or default is None:
+                raise self.error(key, "is missing", "text")
+            return default
+        value = self.data[key]
+        if not isinstance(value, str) or not value.strip():
+            raise self.error(key, f"is {_kind(value)}", "non-empty text")
+        return value.strip()
+
+    def strings(self, key: str) -> list[str]:
+        if key not in self.data:
+            raise self.error(key, "is missing", 'a list of names, for example ["booster"]')
+        value = self.data[key]
+        if isinstance(value, str):
+            value = [value]
+        if (
+            not isinstance(value, list)
+            or not value
+            or not all(isinstance(item, str) and item for item in value)
+        ):
+            raise self.error(key, f"is {_kind(value)}", 'a list of names, for example ["booster"]')
+        return list(value)
+
+    def integer(self, key: str, default: int, low: int, high: int) -> int:
+        if key not in self.data:
+            return default
+        value = self.data[key]
+        if isinstance(value, bool) or not isinstance(value, int):
+            raise self.error(key, f"is {_kind(value)}", f"a whole number from {low} to {high}")
+        if not low <= value <= high:
+            raise self.error(key, f"is {value}", f"a whole number from {low} to {high}")
+        return value
+
+    def quantity(
+        self,
+        key: str,
+        dimension: str,
+        *,
+        required: bool = False,
+        default: float | None = None,
+        low: float | None = None,
+        high: float | None = None,
+        low_inclusive: bool = True,
+        expected: str = "",
+    ) -> float | None:
+        """Read a quantity field, convert it to SI, and check its range."""
+        if key not in self.data:
+            if required:
+                raise self.error(key, "is missing", f"a {dimension} in {UNIT_HINTS[dimension]}")
+            return default
+        value = self.data[key]
+        if isinstance(value, bool):
+            raise self.error(key, "is true/false", f"a {dimension}")
+        if isinstance(value, int | float):
+            if dimension != "dimensionless":
+                raise self.error(
+                    key,
+                    f"the bare number {value} has no unit",
+                    f"a {dimension} written with its unit in {UNIT_HINTS[dimension]}",
+                )
+            number = float(value)
+            if not math.isfinite(number):
+                raise self.error(key, f"is {value}", "a finite number")
+        elif isinstance(value, str):
+            try:
+                number = parse_quantity(value, dimension)
+            except UnitParseError as exc:
+                raise self.error(
+                    key, exc.reason, f"a {dimension} in {UNIT_HINTS[dimension]}"
+                ) from exc
+        else:
+            raise self.error(key, f"is {_kind(value)}", f"a {dimension} in {UNIT_HINTS[dimension]}")
+        too_low = low is not None and (number < low if low_inclusive else number <= low)
+        too_high = high is not None and number > high
+        if too_low or too_high:
+            raise self.error(key, f"{value!r} is out of range", expected or f"a {dimension}")
+        return number
+
+    def table(self, key: str, allowed: set[str]) -> _Table | None:
+        if key not in self.data:
+            return None
+        return _Table(self.builder, self.data[key], (*self.path, key), allowed)
+
+
+def _kind(value: Any) -> str:
+    if isinstance(value, bool):
+        return "true/false"
+    if isinstance(value, int | float):
+        return f"the number {value}"
+    if isinstance(value, str):
+        return f"the text {value!r}" if value.strip() else "empty text"
+    if isinstance(value, list):
+        return "a list"
+    if isinstance(value, Mapping):
+        return "a table"
+    return f"a {type(value).__name__}"
+
+
+_TOP = {"mission", "launch", "vehicle", "stage", "leg", "margins"}
+_MISSION = {"name", "description"}
+_LAUNCH = {"site_altitude", "latitude", "azimuth", "rail_length", "elevation"}
+_VEHICLE = {"payload", "diameter", "drag_curve"}
+_STAGE = {
+    "name",
+    "inert_mass",
+    "propellant_mass_fraction",
+    "propellant_mass",
+    "diameter",
+    "drag_curve",
+    "residual_fraction",
+    "separation_delay",
+    "ignition_delay",
+    "motor",
+    "engine",
+}
+_MOTOR = {"name", "file", "propellant_mass", "case_mass", "propellant", "count"}
+_ENGINE = {
+    "thrust_vacuum",
+    "thrust_sea_level",
+    "isp_vacuum",
+    "isp_sea_level",
+    "exit_area",
+    "propellant",
+    "count",
+}
+_LEG_BASE = {"name", "stages", "target", "reserve"}
+_LEG_FIELDS = {name for kind in TARGET_KINDS.values() for name in (*kind.required, *kind.optional)}
+_MARGINS = {"reserve", "residual_fraction", "required_margin"}
+
+
+class _Builder:
+    def __init__(self, source: str, text: str, base_dir: Path) -> None:
+        self.source = source
+        self.lines = text.splitlines()
+        self.base_dir = base_dir
+
+    # -- locating fields in the text, for error messages ------------------------------
+    def locate(self, path: tuple[str | int, ...], key: str) -> int | None:
+        """Best-effort line number of a field (or of its table when the key is absent)."""
+        if not self.lines:
+            return None
+        header: tuple[str | int, ...] = ()
+        counts: dict[tuple[str | int, ...], int] = {}
+        table_line: int | None = None
+        key_re = re.compile(rf"^\s*{re.escape(key)}\s*=") if key else None
+        for number, raw in enumerate(self.lines, start=1):
+            line = raw.strip()
+            array = re.match(r"^\[\[\s*([A-Za-z0-9_.]+)\s*\]\]", line)
+            single = re.match(r"^\[\s*([A-Za-z0-9_.]+)\s*\]", line)
+            if array:
+                names = array.group(1).split(".")
+                parent = self._resolve(names[:-1], counts)
+                array_key = (*parent, names[-1])
+                counts[array_key] = counts.get(array_key, -1) + 1
+                header = (*array_key, counts[array_key])
+            elif single:
+                header = (
+                    *self._resolve(single.group(1).split(".")[:-1], counts),
+                    single.group(1).split(".")[-1],
+                )
+            else:
+                if header == path and key_re is not None and key_re.match(raw):
+                    return number
+                continue
+            if header == path:
+                table_line = number
+        if not path and key_re is not None:
+            for number, raw in enumerate(self.lines, start=1):
+                if key_re.match(raw):
+                    return number
+        return table_line
+
+    @staticmethod
+    def _resolve(
+        names: list[str], counts: dict[tuple[str | int, ...], int]
+    ) -> tuple[str | int, ...]:
+        resolved: tuple[str | int, ...] = ()
+        for name in names:
+            resolved = (*resolved, name)
+            if resolved in counts:
+                resolved = (*resolved, counts[resolved])
+        return resolved
+
+    # -- building -------------------------------------------------------------------
+    def build(self, data: dict[str, Any]) -> Mission:
+        top = _Table(self, data, (), _TOP)
+        info = top.table("mission", _MISSION)
+        name = info.string("name", default=Path(self.source).stem) if info else ""
+        description = info.string("description", default="") if info else ""
+        name = name or Path(self.source).stem
+        launch = self._launch(top.table("launch", _LAUNCH))
+        margins = self._margins(top.table("margins", _MARGINS))
+        vehicle_table = top.table("vehicle", _VEHICLE)
+        if vehicle_table is None:
+            raise top.error("vehicle", "is missing", "a [vehicle] table with the payload mass")
+        payload = vehicle_table.quantity("payload", "mass", required=True, low=0.0)
+        diameter = vehicle_table.quantity("diameter", "length", low=0.0, low_inclusive=False)
+        drag_name = vehicle_table.string("drag_curve", default="") or None
+        drag = self._drag_curve(vehicle_table, "drag_curve", drag_name)
+        stages = self._stages(top, margins, diameter, drag)
+        vehicle = Vehicle(stages=tuple(stages), payload_mass=float(payload or 0.0), name=name)
+        legs = self._legs(top, vehicle, launch)
+        return Mission(
+            name=name,
+            vehicle=vehicle,
+            legs=tuple(legs),
+            margins=margins,
+            launch=launch,
+            description=description,
+            source=self.source,
+            document=data,
+        )
+
+    def _launch(self, table: _Table | None) -> LaunchSite:
+        if table is None:
+            return LaunchSite()
+        degree = math.pi / 180
+        altitude = table.quantity("site_altitude", "length", default=0.0, low=-500.0, high=1e4)
+        latitude = table.quantity("latitude", "angle", low=-90 * degree, high=90 * degree)
+        azimuth = table.quantity("azimuth", "angle", low=0.0, high=360 * degree)
+        rail = table.quantity("rail_length", "length", low=0.0, high=1e3)
+        elevation = table.quantity(
+            "elevation",
+            "angle",
+            default=math.pi / 2,
+            low=0.0,
+            low_inclusive=False,
+            high=90 * degree,
+            expected="an angle above the horizon, from 0 deg to 90 deg",
+        )
+        return LaunchSite(
+            altitude=float(altitude or 0.0),
+            latitude=latitude,
+            azimuth=azimuth,
+            rail_length=rail,
+            elevation=float(elevation or math.pi / 2),
+        )
+
+    def _margins(self, table: _Table | None) -> Margins:
+        if table is None:
+            return Margins()
+        reserve = table.quantity("reserve", "speed", default=0.0, low=0.0)
+        residual = table.quantity(
+            "residual_fraction",
+            "dimensionless",
+            default=0.0,
+            low=0.0,
+            high=0.5,
+            expected="a fraction from 0 to 50 %",
+        )
+        required_margin = 0.0
+        is_fraction = False
+        if table.has("required_margin"):
+            value = table.data["required_margin"]
+            if isinstance(value, int | float) and not isinstance(value, bool):
+                is_fraction = True
+            elif isinstance(value, str):
+                try:
+                    parse_quantity(value, "speed")
+                except UnitParseError:
+                    is_fraction = True
+            dimension = "dimensionless" if is_fraction else "speed"
+            required_margin = float(
+                table.quantity(
+                    "required_margin",
+                    dimension,
+                    low=0.0,
+                    high=10.0 if is_fraction else None,
+                    expected='a delta-v such as "100 m/s" or a percentage such as "5 %"',
+                )
+                or 0.0
+            )
+        return Margins(float(reserve or 0.0), float(residual or 0.0), required_margin, is_fraction)
+
+    def _drag_curve(self, table: _Table, key: str, name: str | None) -> DragCurve | None:
+        if name is None:
+            return None
+        try:
+            return catalog.load_drag_curve(name, self.base_dir)
+        except MissionFileNotFoundError as exc:
+            raise table.error(key, str(exc), "a shipped drag curve name or a CSV file") from exc
+
+    def _stages(
+        self,
+        top: _Table,
+        margins: Margins,
+        diameter: float | None,
+        drag: DragCurve | None,
+    ) -> list[Stage]:
+        raw = top.data.get("stage")
+        if raw is None:
+            raise top.error("stage", "is missing", "at least one [[stage]] table")
+        if not isinstance(raw, list) or not raw:
+            raise top.error("stage", f"is {_kind(raw)}", "one or more [[stage]] tables")
+        stages: list[Stage] = []
+        for index, entry in enumerate(raw):
+            table = _Table(self, entry, ("stage", index), _STAGE)
+            stage = self._stage(table, margins, diameter, drag)
+            if any(other.name == stage.name for other in stages):
+                raise table.error("name", f"'{stage.name}' is used twice", "unique stage names")
+            stages.append(stage)
+        return stages
+
+    def _stage(
+        self,
+        table: _Table,
+        margins: Margins,
+        diameter: float | None,
+        drag: DragCurve | None,
+    ) -> Stage:
+        name = table.string("name", required=True)
+        motor_table = table.table("motor", _MOTOR)
+        engine_table = table.table("engine", _ENGINE)
+        if (motor_table is None) == (engine_table is None):
+            raise table.error(
+                "",
+                "needs exactly one of [stage.motor] and [stage.engine]",
+                "a motor (thrust curve) or an engine (thrust and specific impulse)",
+            )
+        propulsion: Motor | Engine
+        if motor_table is not None:
+            propulsion, count = self._motor(motor_table)
+            if table.has("propellant_mass"):
+                raise table.error(
+                    "propellant_mass",
+                    "a motor stage takes its propellant from the motor",
+                    "motor.propellant_mass for a curve of your own, or no field",
+                )
+            propellant = count * propulsion.propellant_mass
+            case_mass = count * propulsion.case_mass
+        else:
+            assert engine_table is not None
+            propulsion, count = self._engine(engine_table)
+            propellant = float(
+                table.quantity(
+                    "propellant_mass",
+                    "mass",
+                    required=True,
+                    low=0.0,
+                    low_inclusive=False,
+                    expected="a mass above zero",
+                )
+                or 0.0
+            )
+            case_mass = 0.0
+        if table.has("inert_mass") == table.has("propellant_mass_fraction"):
+            raise table.error(
+                "inert_mass",
+                "give exactly one of inert_mass and propellant_mass_fraction",
+                'the stage\'s dry mass, for example "1.2 kg"',
+            )
+        if table.has("inert_mass"):
+            structure = float(
+                table.quantity(
+                    "inert_mass", "mass", low=0.0, low_inclusive=False, expected="a mass above zero"
+                )
+                or 0.0
+            )
+            inert = structure + case_mass
+        else:
+            fraction = float(
+                table.quantity(
+                    "propellant_mass_fraction",
+                    "dimensionless",
+                    low=0.0,
+                    low_inclusive=False,
+                    expected="a fraction above 0 and below 1",
+                )
+                or 0.0
+            )
+            if fraction >= 1.0:
+                raise table.error(
+                    "propellant_mass_fraction",
+                    f"is {fraction:g}: a stage cannot be all propellant",
+                    "a fraction above 0 and below 1",
+                )
+            inert = propellant * (1.0 - fraction) / fraction
+        residual = table.quantity(
+            "residual_fraction",
+            "dimensionless",
+            default=margins.residual_fraction,
+            low=0.0,
+            high=0.5,
+            expected="a fraction from 0 to 50 %",
+        )
+        stage_diameter = table.quantity(
+            "diameter",
+            "length",
+            default=diameter,
+            low=0.0,
+            low_inclusive=False,
+            expected="a length above zero",
+        )
+        drag_name = table.string("drag_curve", default="") or None
+        stage_drag = self._drag_curve(table, "drag_curve", drag_name) if drag_name else drag
+        separation = table.quantity("separation_delay", "time", default=0.0, low=0.0, high=3600)
+        ignition = table.quantity("ignition_delay", "time", default=0.0, low=0.0, high=1e5)
+        return Stage(
+            name=name,
+            inert_mass=inert,
+            propellant_mass=propellant,
+            propulsion=propulsion,
+            count=count,
+            residual_fraction=float(residual or 0.0),
+            diameter=stage_diameter,
+            drag_curve=stage_drag,
+            separation_delay=float(separation or 0.0),
+            ignition_delay=float(ignition or 0.0),
+        )
+
+    def _family(self, table: _Table) -> str | None:
+        if not table.has("propellant"):
+            return None
+        key = table.string("propellant")
+        families = catalog.propellant_families()
+        if key not in families:
+            close = difflib.get_close_matches(key, sorted(families), n=1)
+            hint = f"; did you mean '{close[0]}'?" if close else ""
+            raise table.error(
+                "propellant",
+                f"unknown propellant family '{key}'{hint}",
+                "a key from data/propellants.csv (see `propulsion data`)",
+            )
+        return key
+
+    def _motor(self, table: _Table) -> tuple[Motor, int]:
+        count = table.integer("count", 1, 1, MAX_COUNT)
+        family = self._family(table)
+        propellant = table.quantity(
+            "propellant_mass", "mass", low=0.0, low_inclusive=False, expected="a mass above zero"
+        )
+        case = table.quantity("case_mass", "mass", low=0.0)
+        if table.has("name") == table.has("file"):
+            raise table.error(
+                "name",
+                "give exactly one of name (a shipped motor) and file (your own thrust curve)",
+                'for example name = "pd-G58" or file = "my_curve.csv"',
+            )
+        try:
+            if table.has("name"):
+                name = table.string("name")
+                if name not in catalog.motor_names():
+                    close = difflib.get_close_matches(name, catalog.motor_names(), n=1)
+                    hint = f"; did you mean '{close[0]}'?" if close else ""
+                    raise table.error(
+                        "name",
+                        f"no shipped motor is called '{name}'{hint}",
+                        'a name listed by `propulsion data`, or file = "your_curve.csv"',
+                    )
+                motor = catalog.load_motor(name)
+                if propellant is not None or case is not None or family is not None:
+                    motor = Motor(
+                        name=motor.name,
+                        time=motor.time,
+                        thrust=motor.thrust,
+                        propellant_mass=propellant or motor.propellant_mass,
+                        case_mass=motor.case_mass if case is None else case,
+                        propellant_family=family or motor.propellant_family,
+                        diameter=motor.diameter,
+                        source=motor.source,
+                    )
+            else:
+                path = Path(table.string("file"))
+                if not path.is_absolute():
+                    path = self.base_dir / path
+                if not path.is_file():
+                    raise table.error("file", f"thrust curve not found: {path}", "an existing CSV")
+                motor = catalog.read_thrust_curve(path, propellant, case, family)
+        except DataFileError:
+            raise
+        except MissionFileNotFoundError as exc:
+            raise table.error("name", str(exc), "an existing motor") from exc
+        if motor.propellant_family is not None:
+            families = catalog.propellant_families()
+            if motor.propellant_family not in families:
+                raise table.error(
+                    "propellant",
+                    f"the motor names unknown propellant family '{motor.propellant_family}'",
+                    "a key from data/propellants.csv",
+                )
+        return motor, count
+
+    def _engine(self, table: _Table) -> tuple[Engine, int]:
+        from propulsion.constants import STANDARD_GRAVITY, USSA76_SEA_LEVEL_PRESSURE
+
+        count = table.integer("count", 1, 1, MAX_COUNT)
+        family = self._family(table)
+        if table.has("thrust_vacuum") == table.has("thrust_sea_level"):
+            raise table.error(
+                "thrust_vacuum",
+                "give exactly one of thrust_vacuum and thrust_sea_level (per engine)",
+                'a force such as "1200 lbf"',
+            )
+        isp_vacuum = float(
+            table.quantity(
+                "isp_vacuum",
+                "time",
+                required=True,
+                high=1e4,
+                expected="a specific impulse in s above zero",
+                low=0.0,
+                low_inclusive=False,
+            )
+            or 0.0
+        )
+        if table.has("isp_sea_level") == table.has("exit_area"):
+            raise table.error(
+                "isp_sea_level",
+                "give exactly one of isp_sea_level and exit_area",
+                "the sea-level specific impulse, or the nozzle exit area of one engine",
+            )
+        p0 = USSA76_SEA_LEVEL_PRESSURE
+        if table.has("thrust_vacuum"):
+            thrust_vacuum = float(
+                table.quantity("thrust_vacuum", "force", low=0.0, low_inclusive=False) or 0.0
+            )
+            mass_flow = thrust_vacuum / (isp_vacuum * STANDARD_GRAVITY)
+            if table.has("exit_area"):
+                exit_area = float(table.quantity("exit_area", "area", low=0.0) or 0.0)
+            else:
+                isp_sea_level = float(
+                    table.quantity(
+                        "isp_sea_level",
+                        "time",
+                        high=isp_vacuum,
+                        expected="a specific impulse above zero and not above isp_vacuum",
+                        low=0.0,
+                        low_inclusive=False,
+                    )
+                    or 0.0
+                )
+                exit_area = (isp_vacuum - isp_sea_level) * STANDARD_GRAVITY * mass_flow / p0
+        else:
+            thrust_sea_level = float(
+                table.quantity("thrust_sea_level", "force", low=0.0, low_inclusive=False) or 0.0
+            )
+            if table.has("exit_area"):
+                exit_area = float(table.quantity("exit_area", "area", low=0.0) or 0.0)
+                thrust_vacuum = thrust_sea_level + p0 * exit_area
+            else:
+                isp_sea_level = float(
+                    table.quantity(
+                        "isp_sea_level",
+                        "time",
+                        high=isp_vacuum,
+                        expected="a specific impulse above zero and not above isp_vacuum",
+                        low=0.0,
+                        low_inclusive=False,
+                    )
+                    or 0.0
+                )
+                mass_flow = thrust_sea_level / (isp_sea_level * STANDARD_GRAVITY)
+                thrust_vacuum = mass_flow * isp_vacuum * STANDARD_GRAVITY
+                exit_area = (thrust_vacuum - thrust_sea_level) / p0
+        engine = Engine(thrust_vacuum, isp_vacuum, exit_area, family)
+        if engine.thrust_sea_level <= 0:
+            raise table.error(
+                "exit_area",
+                "the nozzle exit area is so large that sea-level thrust would not be positive",
+                f"an exit area below {thrust_vacuum / p0:.4g} m^2 for this thrust",
+            )
+        return engine, count
+
+    def _legs(self, top: _Table, vehicle: Vehicle, launch: LaunchSite) -> list[Leg]:
+        raw = top.data.get("leg", [])
+        if not isinstance(raw, list):
+            raise top.error("leg", f"is {_kind(raw)}", "[[leg]] tables")
+        names = [stage.name for stage in vehicle.stages]
+        legs: list[Leg] = []
+        last_index = -1
+        for index, entry in enumerate(raw):
+            table = _Table(self, entry, ("leg", index), _LEG_BASE | _LEG_FIELDS)
+            name = table.string("name", default=f"leg {index + 1}")
+            kind_name = table.string("target", default="delta_v")
+            if kind_name not in TARGET_KINDS:
+                close = difflib.get_close_matches(kind_name, sorted(TARGET_KINDS), n=1)
+                hint = f"; did you mean '{close[0]}'?" if close else ""
+                raise table.error(
+                    "target",
+                    f"unknown target '{kind_name}'{hint}",
+                    "one of: " + ", ".join(TARGET_KINDS),
+                )
+            kind = TARGET_KINDS[kind_name]
+            for key in table.data:
+                if key in _LEG_FIELDS and key not in kind.required and key not in kind.optional:
+                    raise table.error(
+                        key,
+                        f"does not belong to target '{kind_name}'",
+                        "fields: " + ", ".join([*kind.required, *kind.optional]),
+                    )
+            stage_names = table.strings("stages")
+            for stage_name in stage_names:
+                if stage_name not in names:
+                    close = difflib.get_close_matches(stage_name, names, n=1)
+                    hint = f"; did you mean '{close[0]}'?" if close else ""
+                    raise table.error(
+                        "stages",
+                        f"no stage is called '{stage_name}'{hint}",
+                        "names of [[stage]] tables: " + ", ".join(names),
+                    )
+            indices = [names.index(stage_name) for stage_name in stage_names]
+            if indices != sorted(set(indices)) or indices != list(
+                range(indices[0], indices[-1] + 1)
+            ):
+                raise table.error(
+                    "stages",
+                    "stages must be listed once each, in firing order, without gaps",
+                    'for example ["booster", "sustainer"]',
+                )
+            if indices[0] not in (last_index, last_index + 1):
+                expected_stage = names[min(last_index + 1, len(names) - 1)]
+                problem = (
+                    f"stage '{names[indices[0]]}' has already fired in an earlier leg"
+                    if indices[0] < last_index
+                    else f"the leg skips stages; the next stage to fire is '{expected_stage}'"
+                )
+                raise table.error("stages", problem, "legs that follow the firing order")
+            if indices[0] == last_index and vehicle.stages[last_index].is_motor:
+                raise table.error(
+                    "stages",
+                    f"stage '{names[last_index]}' is a motor, which burns once to depletion "
+                    "and cannot fly two legs",
+                    "an engine stage for legs that share a stage",
+                )
+            last_index = indices[-1]
+            fields = self._target_fields(table, kind.required, kind.optional, kind_name)
+            reserve = float(table.quantity("reserve", "speed", default=0.0, low=0.0) or 0.0)
+            try:
+                requirement = required_delta_v(
+                    kind_name, fields, launch.altitude, launch.latitude, launch.azimuth
+                )
+            except ValueError as exc:
+                raise table.error("target", str(exc), "a target that can be reached") from exc
+            legs.append(Leg(name, tuple(stage_names), kind_name, fields, requirement, reserve))
+        return legs
+
+    def _target_fields(
+        self, table: _Table, required: dict[str, str], optional: dict[str, str], kind: str
+    ) -> dict[str, float]:
+        fields: dict[str, float] = {}
+        for key, dimension in {**required, **optional}.items():
+            low: float = 0.0
+            inclusive = key in {"loss_allowance", "delta_v"}
+            expected = f"a {dimension} above zero"
+            high: float | None = 1e9
+            if dimension == "angle":
+                high = math.pi
+                expected = "an angle above 0 deg and up to 180 deg"
+            elif key == "delta_v":
+                high = 1e5
+            value = table.quantity(
+                key,
+                dimension,
+                required=key in required,
+                low=low,
+                low_inclusive=inclusive,
+                high=high,
+                expected=expected,
+            )
+            if value is not None:
+                fields[key] = value
+        if kind in {"transfer_burn", "hohmann", "circularise"}:
+            other = "to_altitude" if kind != "circularise" else "altitude"
+            if fields.get(other) == fields.get("from_altitude"):
+                raise table.error(
+                    other, "equals from_altitude: no burn is needed", "two different altitudes"
+                )
+        return fields

@@ -1,0 +1,1 @@
+"""Presentation: terminal tables, JSON, and the safety caution. SI is converted for display here."""

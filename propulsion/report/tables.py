@@ -1,0 +1,320 @@
+"""Terminal tables (rich) for the ledgers, findings and data listings.
+
+Values arrive in SI and are converted to the chosen display units here.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterable, Sequence
+from typing import TYPE_CHECKING
+
+from rich import box
+from rich.console import Console, Group, RenderableType
+from rich.panel import Panel
+from rich.table import Table
+from rich.text import Text
+
+from propulsion.report.cautions import SAFETY_CAUTION, SAFETY_TITLE
+from propulsion.units import DisplayUnits, format_number, to_display
+
+if TYPE_CHECKING:
+    from propulsion.budget import BudgetResult
+    from propulsion.catalog import PropellantFamily
+    from propulsion.mission import Mission
+    from propulsion.plausibility import Finding
+    from propulsion.vehicle import DragCurve, Motor
+
+__all__ = [
+    "budget_view",
+    "caution_panel",
+    "check_view",
+    "data_view",
+    "findings_view",
+    "mission_summary",
+    "print_view",
+    "verdict_text",
+]
+
+
+def _num(value: float, digits: int = 4) -> str:
+    return format_number(value, digits) if math.isfinite(value) else "—"
+
+
+def _q(value: float, dimension: str, units: DisplayUnits, digits: int = 4) -> str:
+    return _num(to_display(value, dimension, units), digits)
+
+
+def _head(title: str, dimension: str, units: DisplayUnits) -> str:
+    label = units.label(dimension)
+    return f"{title} ({label})" if label else title
+
+
+def _table(title: str) -> Table:
+    return Table(title=title, title_justify="left", box=box.SIMPLE_HEAVY, title_style="bold")
+
+
+def caution_panel() -> Panel:
+    """The safety caution as a conspicuous panel."""
+    return Panel(
+        Text(SAFETY_CAUTION),
+        title=f"[bold]{SAFETY_TITLE}[/bold]",
+        border_style="red",
+        expand=True,
+    )
+
+
+def mission_summary(mission: Mission) -> Text:
+    """One or two lines naming the mission and its file."""
+    text = Text()
+    text.append(mission.name, style="bold")
+    text.append(f"  ({mission.source})", style="dim")
+    if mission.description:
+        text.append(f"\n{mission.description}")
+    return text
+
+
+def verdict_text(meets: bool | None, text: str) -> Text:
+    """The verdict line, coloured by outcome."""
+    style = "bold green" if meets else ("bold red" if meets is False else "bold yellow")
+    mark = "PASS" if meets else ("SHORT" if meets is False else "NO TARGET")
+    line = Text()
+    line.append(f"{mark}  ", style=style)
+    line.append(text, style=style)
+    return line
+
+
+def findings_view(findings: Sequence[Finding]) -> RenderableType:
+    """Plausibility warnings, each with its rule and source."""
+    if not findings:
+        return Text("No plausibility warnings.", style="dim")
+    table = _table("Plausibility warnings")
+    table.add_column("Subject", style="yellow")
+    table.add_column("Warning")
+    table.add_column("Rule (source)", style="dim")
+    for finding in findings:
+        table.add_row(finding.subject, finding.message, f"{finding.rule} ({finding.source})")
+    return table
+
+
+def _sheet(
+    title: str,
+    names: Sequence[str],
+    rows: Sequence[tuple[str, str, Sequence[str]]],
+    emphasise: Iterable[str] = (),
+) -> Table:
+    """A table with one column per item (stage, leg) and one row per quantity."""
+    table = _table(title)
+    table.add_column("")
+    table.add_column("Unit", style="dim")
+    for name in names:
+        table.add_column(name, justify="right", overflow="fold")
+    bold = set(emphasise)
+    for label, unit, values in rows:
+        table.add_row(label, unit, *values, style="bold" if label in bold else None)
+    return table
+
+
+def budget_view(result: BudgetResult, units: DisplayUnits) -> RenderableType:
+    """The ideal delta-v budget: stage sheet, leg sheet, verdict, warnings, caution."""
+    parts: list[RenderableType] = [mission_summary(result.mission)]
+    st = result.stages
+    mass, speed = units.label("mass"), units.label("speed")
+
+    def col(getter: object, dimension: str | None = None, digits: int = 4) -> list[str]:
+        values = [getattr(row, str(getter)) for row in st]
+        if dimension is None:
+            return [_num(value, digits) for value in values]
+        return [_q(value, dimension, units, digits) for value in values]
+
+    stage_rows: list[tuple[str, str, Sequence[str]]] = [
+        ("Propulsion", "", [row.propulsion for row in st]),
+        ("Propellant family", "", [row.propellant_family or "—" for row in st]),
+        ("Initial mass", mass, col("initial_mass", "mass")),
+        ("Final mass", mass, col("final_mass", "mass")),
+        ("Usable propellant", mass, col("usable_propellant", "mass")),
+        ("Inert mass", mass, col("inert_mass", "mass")),
+        ("Mass ratio", "", col("mass_ratio")),
+        ("Propellant mass fraction", "", col("propellant_mass_fraction", digits=3)),
+        ("Structural coefficient", "", col("structural_coefficient", digits=3)),
+        ("Payload ratio", "", col("payload_ratio", digits=3)),
+        ("Specific impulse", "s", col("isp")),
+        ("Burn time", "s", col("burn_time", digits=3)),
+        ("Thrust at ignition", units.label("force"), col("thrust", "force")),
+        ("Thrust-to-weight at ignition", "", col("thrust_to_weight", digits=3)),
+        ("Total impulse", units.label("impulse"), col("total_impulse", "impulse")),
+        ("Impulse class", "", [row.impulse_class or "—" for row in st]),
+        ("Ideal Δv", speed, col("ideal_delta_v", "speed")),
+    ]
+    parts.append(
+        _sheet(
+            "Stages (in firing order; masses include everything above)",
+            [row.name for row in st],
+            stage_rows,
+            emphasise=["Ideal Δv"],
+        )
+    )
+    parts.append(
+        Text(
+            f"Stack ideal Δv: {_q(result.total_ideal_delta_v, 'speed', units)} {speed}",
+            style="bold",
+        )
+    )
+
+    if result.legs:
+        legs = result.legs
+
+        def leg_col(getter: str, dimension: str) -> list[str]:
+            return [_q(getattr(leg, getter), dimension, units) for leg in legs]
+
+        leg_rows: list[tuple[str, str, Sequence[str]]] = [
+            ("Target", "", [leg.target for leg in legs]),
+            ("Stages", "", [", ".join(leg.stages) for leg in legs]),
+            ("Required Δv", speed, leg_col("required_delta_v", "speed")),
+            ("Reserve", speed, leg_col("reserve", "speed")),
+            ("Available at start", speed, leg_col("available_delta_v", "speed")),
+            ("Delivered", speed, leg_col("delivered_delta_v", "speed")),
+            ("Margin", speed, leg_col("margin", "speed")),
+            (
+                "Margin",
+                "%",
+                [
+                    f"{leg.margin_fraction * 100:.1f}"
+                    if math.isfinite(leg.margin_fraction)
+                    else "—"
+                    for leg in legs
+                ],
+            ),
+            ("Propellant used", mass, leg_col("propellant_used", "mass")),
+            ("Propellant left in its stages", mass, leg_col("propellant_remaining", "mass")),
+            ("Met", "", ["yes" if leg.met else "NO" for leg in legs]),
+        ]
+        parts.append(
+            _sheet(
+                "Mission legs (flown in order)", [leg.name for leg in legs], leg_rows, ["Margin"]
+            )
+        )
+        notes = Text(style="dim")
+        for leg, mission_leg in zip(legs, result.mission.legs, strict=True):
+            terms = " ".join(
+                f"{'+' if value >= 0 else '−'} {_q(abs(value), 'speed', units)} {speed} ({label})"
+                for label, value in mission_leg.requirement.terms
+            ).lstrip("+ ")
+            notes.append(f"{leg.name}: required = {terms}\n")
+        margins = result.mission.margins
+        notes.append(
+            f"Mission reserve {_q(margins.reserve, 'speed', units)} {speed}; Δv of the "
+            f"propellant left after the last leg {_q(result.leftover_delta_v, 'speed', units)} "
+            f"{speed}; unusable residual {margins.residual_fraction:.1%} of propellant by "
+            "default.\nIdeal Δv: Tsiolkovsky rocket equation with g0 = 9.80665 m/s² (vacuum "
+            "Isp for engines, delivered Isp for motors). Losses are in the loss allowances; "
+            "`propulsion fly` computes them."
+        )
+        parts.append(notes)
+    parts.append(Text())
+    parts.append(verdict_text(result.verdict.meets_targets, result.verdict.describe(units)))
+    parts.append(findings_view(result.findings))
+    parts.append(caution_panel())
+    return Group(*parts)
+
+
+def print_view(renderables: Iterable[RenderableType], console: Console | None = None) -> None:
+    """Print renderables to the console (stdout by default)."""
+    console = console or Console()
+    for renderable in renderables:
+        console.print(renderable)
+
+
+def check_view(result: BudgetResult, units: DisplayUnits) -> RenderableType:
+    """What `check` shows: the file is valid, the vehicle in brief, warnings, caution."""
+    mission = result.mission
+    vehicle = mission.vehicle
+    header = Text()
+    header.append("Valid mission file: ", style="bold green")
+    header.append(mission.source)
+    header.append(
+        f"\n{mission.name}: {len(vehicle.stages)} stage(s), {len(mission.legs)} leg(s), "
+        f"liftoff mass {_q(vehicle.liftoff_mass, 'mass', units)} {units.label('mass')}, "
+        f"payload {_q(vehicle.payload_mass, 'mass', units)} {units.label('mass')}"
+    )
+    table = _table("Vehicle")
+    table.add_column("Stage")
+    table.add_column("Propulsion")
+    table.add_column("Propellant family")
+    table.add_column(_head("Inert", "mass", units), justify="right")
+    table.add_column(_head("Propellant", "mass", units), justify="right")
+    table.add_column("Isp (s)", justify="right")
+    table.add_column("T/W at ignition", justify="right")
+    for row in result.stages:
+        table.add_row(
+            row.name,
+            row.propulsion,
+            row.propellant_family or "—",
+            _q(row.inert_mass, "mass", units),
+            _q(row.propellant_mass, "mass", units),
+            _num(row.isp),
+            _num(row.thrust_to_weight, 3),
+        )
+    return Group(header, table, findings_view(result.findings), caution_panel())
+
+
+def data_view(
+    families: dict[str, PropellantFamily],
+    motors: Sequence[Motor],
+    curves: Sequence[DragCurve],
+    units: DisplayUnits,
+) -> RenderableType:
+    """What `data` shows: propellant families, motors and drag curves."""
+    fam = _table("Propellant families (data/propellants.csv)")
+    for title in ("Key", "Name", "Category", "Isp range (s)"):
+        fam.add_column(title)
+    fam.add_column(_head("Density", "density", units), justify="right")
+    fam.add_column("Stage prop. fraction")
+    fam.add_column("Min liftoff T/W", justify="right")
+    fam.add_column("Source", style="dim")
+    for f in families.values():
+        fam.add_row(
+            f.key,
+            f.name,
+            f.category,
+            f"{f.isp_min:.0f}–{f.isp_max:.0f}",
+            _q(f.density, "density", units),
+            f"{f.stage_mass_fraction_min:.2f}–{f.stage_mass_fraction_max:.2f}",
+            f"{f.liftoff_thrust_to_weight_min:g}",
+            f.source,
+        )
+    mot = _table("Demo motors (data/motors/, invented for the examples)")
+    mot.add_column("Name")
+    mot.add_column("Class", justify="center")
+    mot.add_column(_head("Total impulse", "impulse", units), justify="right")
+    mot.add_column(_head("Avg thrust", "force", units), justify="right")
+    mot.add_column("Burn (s)", justify="right")
+    mot.add_column("Isp (s)", justify="right")
+    mot.add_column(_head("Propellant", "mass", units), justify="right")
+    mot.add_column(_head("Loaded", "mass", units), justify="right")
+    mot.add_column("Diameter (mm)", justify="right")
+    mot.add_column("Family")
+    for m in motors:
+        mot.add_row(
+            m.name,
+            m.impulse_class,
+            _q(m.total_impulse, "impulse", units),
+            _q(m.average_thrust, "force", units),
+            _num(m.burn_time, 3),
+            _num(m.specific_impulse, 3),
+            _q(m.propellant_mass, "mass", units, 3),
+            _q(m.loaded_mass, "mass", units, 3),
+            f"{m.diameter * 1000:.0f}" if m.diameter else "—",
+            m.propellant_family or "—",
+        )
+    drag = _table("Drag curves (data/drag/, rough defaults)")
+    drag.add_column("Name")
+    drag.add_column("Mach range")
+    drag.add_column("Cd range")
+    for c in curves:
+        drag.add_row(
+            c.name,
+            f"{c.mach[0]:g}–{c.mach[-1]:g}",
+            f"{c.drag_coefficient.min():.2f}–{c.drag_coefficient.max():.2f}",
+        )
+    return Group(fam, mot, drag)

@@ -1,0 +1,261 @@
+"""The package's one pint registry, and the helpers that cross the unit boundary.
+
+Quantities enter the program here (mission files, command-line values, API inputs) and
+leave it here (tables, JSON, exports). Everything between works on plain SI floats.
+
+Parsing is deliberately stricter than ``pint.UnitRegistry.Quantity(text)``: the
+magnitude must be a plain decimal number and the unit expression may only carry small
+integer exponents. pint evaluates ``9**9**9 kg`` with Python's arbitrary-precision
+integers, which never finishes, so such text is refused before pint sees it.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+from functools import cache
+from typing import TYPE_CHECKING, Any
+
+if TYPE_CHECKING:
+    import pint
+
+__all__ = [
+    "DIMENSIONS",
+    "DisplayUnits",
+    "UnitParseError",
+    "display_units",
+    "format_quantity",
+    "parse_quantity",
+    "registry",
+    "to_display",
+]
+
+MAX_TEXT_LENGTH = 80
+"""Longest quantity text accepted [characters]."""
+
+MAX_MAGNITUDE = 1e15
+"""Largest absolute SI value accepted for any field; larger is refused as absurd."""
+
+_NUMBER = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d{1,3})?"
+_QUANTITY_RE = re.compile(rf"^\s*(?P<number>{_NUMBER})\s*(?P<unit>.*?)\s*$")
+_UNIT_CHARS_RE = re.compile(r"^[A-Za-z_µμ°%Ω\s*/^().\-\d]*$")
+_EXPONENT_RE = re.compile(r"(\*\*|\^)\s*\(?\s*(-?\d+(?:\.\d+)?)\s*\)?")
+
+# Dimension names used throughout the package, with the SI unit that the core works in.
+DIMENSIONS: dict[str, str] = {
+    "mass": "kg",
+    "length": "m",
+    "area": "m**2",
+    "time": "s",
+    "speed": "m/s",
+    "acceleration": "m/s**2",
+    "force": "N",
+    "impulse": "N*s",
+    "pressure": "Pa",
+    "density": "kg/m**3",
+    "angle": "rad",
+    "dimensionless": "dimensionless",
+}
+
+
+class UnitParseError(ValueError):
+    """A quantity text that could not be read; ``reason`` says why in plain words."""
+
+    def __init__(self, text: str, reason: str) -> None:
+        self.text = text
+        self.reason = reason
+        super().__init__(text, reason)
+
+    def __str__(self) -> str:
+        return f"cannot read {self.text!r} as a quantity: {self.reason}"
+
+
+@cache
+def registry() -> pint.UnitRegistry:
+    """Return the package's single pint registry (built on first use, then shared)."""
+    import pint
+
+    ureg: pint.UnitRegistry = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
+    ureg.formatter.default_format = "~P"
+    return ureg
+
+
+@cache
+def _si_unit(dimension: str) -> Any:
+    return registry().parse_units(DIMENSIONS[dimension])
+
+
+def parse_quantity(text: str, dimension: str) -> float:
+    """Read a quantity text such as ``"2.4 kg"`` and return its SI magnitude.
+
+    Parameters
+    ----------
+    text : str
+        A decimal number followed by a unit expression pint understands.
+    dimension : str
+        One of the keys of :data:`DIMENSIONS`; the text must have this dimension.
+        Angles must name their unit (``"85 deg"``): a bare number is refused.
+        Dimensionless values may be bare numbers or percentages (``"5 %"``).
+
+    Returns
+    -------
+    float
+        The value in the SI unit of ``dimension`` (``DIMENSIONS[dimension]``).
+
+    Raises
+    ------
+    UnitParseError
+        Unreadable text, a wrong dimension, a bare number where a unit belongs, or a
+        non-finite or absurdly large value.
+    """
+    if dimension not in DIMENSIONS:
+        raise KeyError(f"unknown dimension {dimension!r}")
+    if not isinstance(text, str):
+        raise UnitParseError(repr(text), "expected text with a unit")
+    if len(text) > MAX_TEXT_LENGTH:
+        raise UnitParseError(text[:MAX_TEXT_LENGTH] + "…", "text is too long")
+    match = _QUANTITY_RE.match(text)
+    if match is None:
+        raise UnitParseError(text, "expected a number followed by a unit, like '2.4 kg'")
+    magnitude = float(match["number"])
+    unit_text = match["unit"]
+    if not math.isfinite(magnitude):
+        raise UnitParseError(text, "the number is not finite")
+    if not unit_text:
+        if dimension == "dimensionless":
+            return _bounded(text, magnitude)
+        raise UnitParseError(text, f"a bare number has no unit; {dimension} needs one")
+    if not _UNIT_CHARS_RE.match(unit_text):
+        raise UnitParseError(text, f"{unit_text!r} is not a unit expression")
+    for _, exponent in _EXPONENT_RE.findall(unit_text):
+        if abs(float(exponent)) > 4:
+            raise UnitParseError(text, f"exponent {exponent} is out of range (at most 4)")
+    import pint
+
+    try:
+        units = registry().parse_units(unit_text)
+    except (pint.errors.UndefinedUnitError, pint.errors.DefinitionSyntaxError) as exc:
+        raise UnitParseError(text, f"unknown unit {unit_text!r}") from exc
+    except Exception as exc:  # pint raises assorted errors on odd syntax
+        raise UnitParseError(text, f"{unit_text!r} is not a unit expression") from exc
+    quantity = registry().Quantity(magnitude, units)
+    try:
+        value = float(quantity.to(_si_unit(dimension)).magnitude)
+    except pint.errors.DimensionalityError as exc:
+        got = _dimension_name(quantity)
+        raise UnitParseError(text, f"expected {dimension}, got {got}") from exc
+    if dimension == "angle" and quantity.unitless:
+        raise UnitParseError(text, "an angle needs its unit, like '85 deg'")
+    return _bounded(text, value)
+
+
+def _bounded(text: str, value: float) -> float:
+    if not math.isfinite(value) or abs(value) > MAX_MAGNITUDE:
+        raise UnitParseError(text, "the value is not finite or is absurdly large")
+    return value
+
+
+def _dimension_name(quantity: Any) -> str:
+    for name, unit in DIMENSIONS.items():
+        if name != "angle" and quantity.is_compatible_with(unit):
+            return name
+    return str(quantity.dimensionality)
+
+
+@dataclass(frozen=True)
+class DisplayUnits:
+    """The units in which results are shown, one per dimension name."""
+
+    system: str
+    units: dict[str, str]
+
+    def unit(self, dimension: str) -> str:
+        """Return the display unit for a dimension name."""
+        return self.units.get(dimension, DIMENSIONS[dimension])
+
+    def label(self, dimension: str) -> str:
+        """Return a short label for the display unit, for column headers."""
+        return _UNIT_LABELS.get(self.unit(dimension), self.unit(dimension))
+
+
+_SI_DISPLAY = {
+    "mass": "kg",
+    "length": "m",
+    "area": "m**2",
+    "time": "s",
+    "speed": "m/s",
+    "acceleration": "m/s**2",
+    "force": "N",
+    "impulse": "N*s",
+    "pressure": "kPa",
+    "density": "kg/m**3",
+    "angle": "deg",
+    "dimensionless": "dimensionless",
+}
+_US_DISPLAY = {
+    **_SI_DISPLAY,
+    "mass": "lb",
+    "length": "ft",
+    "area": "ft**2",
+    "speed": "ft/s",
+    "acceleration": "ft/s**2",
+    "force": "lbf",
+    "impulse": "lbf*s",
+    "pressure": "psi",
+    "density": "lb/ft**3",
+}
+_UNIT_LABELS = {
+    "m**2": "m²",
+    "ft**2": "ft²",
+    "m/s**2": "m/s²",
+    "ft/s**2": "ft/s²",
+    "N*s": "N·s",
+    "lbf*s": "lbf·s",
+    "kg/m**3": "kg/m³",
+    "lb/ft**3": "lb/ft³",
+    "dimensionless": "",
+}
+
+
+def display_units(system: str) -> DisplayUnits:
+    """Return the display units for ``"si"`` or ``"us"`` (US customary)."""
+    key = system.lower()
+    if key == "si":
+        return DisplayUnits("si", dict(_SI_DISPLAY))
+    if key == "us":
+        return DisplayUnits("us", dict(_US_DISPLAY))
+    raise ValueError(f"unknown unit system {system!r}; expected 'si' or 'us'")
+
+
+@cache
+def _factor(si_unit: str, unit: str) -> float:
+    ureg = registry()
+    return float(ureg.Quantity(1.0, si_unit).to(unit).magnitude)
+
+
+def to_display(value: float, dimension: str, units: DisplayUnits) -> float:
+    """Convert an SI value of a dimension to the chosen display unit."""
+    target = units.unit(dimension)
+    if target == DIMENSIONS[dimension]:
+        return value
+    return value * _factor(DIMENSIONS[dimension], target)
+
+
+def format_quantity(value: float, dimension: str, units: DisplayUnits, digits: int = 4) -> str:
+    """Format an SI value as text in the display unit, with ``digits`` significant figures."""
+    shown = to_display(value, dimension, units)
+    label = units.label(dimension)
+    number = format_number(shown, digits)
+    return f"{number} {label}".strip()
+
+
+def format_number(value: float, digits: int = 4) -> str:
+    """Format a number with a fixed count of significant figures and thousands separators."""
+    if not math.isfinite(value):
+        return str(value)
+    if value == 0:
+        return "0"
+    magnitude = math.floor(math.log10(abs(value)))
+    decimals = max(0, digits - 1 - magnitude)
+    return f"{value:,.{decimals}f}"
