@@ -2,9 +2,10 @@
 
 Each stage's ideal delta-v follows from the Tsiolkovsky rocket equation with everything
 above it riding along. Legs are flown in order: stages that only serve one leg burn to
-depletion (a motor always does), while an engine stage that serves later legs too burns
-just what the leg needs, so the propellant each leg consumes is tracked through the
-rocket equation. The verdict compares what is left with the margin the mission asks for.
+depletion (a motor always does), while the engine stage that ends a leg burns just what
+the leg needs and keeps the rest for later legs and the margin. The propellant each leg
+consumes is tracked through the rocket equation. The verdict compares what is left with
+the margin the mission asks for.
 """
 
 from __future__ import annotations
@@ -305,15 +306,14 @@ class _Stack:
 def _fly_legs(mission: Mission, stack: _Stack) -> list[LegLedger]:
     names = [stage.name for stage in mission.vehicle.stages]
     rows = []
-    for position, leg in enumerate(mission.legs):
+    for leg in mission.legs:
         first, last = names.index(leg.stages[0]), names.index(leg.stages[-1])
-        later = {name for other in mission.legs[position + 1 :] for name in other.stages}
         need = leg.required_delta_v + leg.reserve
         available = stack.capability(first, last)
         delivered = used = 0.0
         for index in range(first, last + 1):
             stage = mission.vehicle.stages[index]
-            can_stop = index == last and not stage.is_motor and stage.name in later
+            can_stop = index == last and not stage.is_motor
             gained, burnt = stack.burn(index, max(need - delivered, 0.0) if can_stop else None)
             delivered += gained
             used += burnt

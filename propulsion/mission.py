@@ -521,6 +521,14 @@ class _Builder:
         for index, entry in enumerate(raw):
             table = _Table(self, entry, ("stage", index), _STAGE)
             stage = self._stage(table, margins, diameter, drag)
+            engine = stage.propulsion
+            if index == 0 and isinstance(engine, Engine) and engine.thrust_sea_level <= 0:
+                raise table.error(
+                    "engine",
+                    "the nozzle exit area is so large that the first stage would have no "
+                    "thrust at sea level",
+                    f"an exit area below {engine.thrust_vacuum / 101325.0:.4g} m^2 per engine",
+                )
             if any(other.name == stage.name for other in stages):
                 raise table.error("name", f"'{stage.name}' is used twice", "unique stage names")
             stages.append(stage)
@@ -778,12 +786,6 @@ class _Builder:
                 thrust_vacuum = mass_flow * isp_vacuum * STANDARD_GRAVITY
                 exit_area = (thrust_vacuum - thrust_sea_level) / p0
         engine = Engine(thrust_vacuum, isp_vacuum, exit_area, family)
-        if engine.thrust_sea_level <= 0:
-            raise table.error(
-                "exit_area",
-                "the nozzle exit area is so large that sea-level thrust would not be positive",
-                f"an exit area below {thrust_vacuum / p0:.4g} m^2 for this thrust",
-            )
         return engine, count
 
     def _legs(self, top: _Table, vehicle: Vehicle, launch: LaunchSite) -> list[Leg]:
