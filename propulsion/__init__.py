@@ -30,13 +30,13 @@ __all__ = [
 ]
 
 if TYPE_CHECKING:
-    from propulsion.budget import budget
     from propulsion.errors import MissionError, PropulsionError
+    from propulsion.ledger import budget
     from propulsion.mission import load_mission, parse_mission
     from propulsion.report.cautions import SAFETY_CAUTION
 
 _LAZY = {
-    "budget": "propulsion.budget",
+    "budget": "propulsion.ledger",
     "load_mission": "propulsion.mission",
     "parse_mission": "propulsion.mission",
     "MissionError": "propulsion.errors",

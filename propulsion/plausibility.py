@@ -14,7 +14,7 @@ from propulsion import catalog
 from propulsion.vehicle import Motor
 
 if TYPE_CHECKING:
-    from propulsion.budget import StageLedger
+    from propulsion.ledger import StageLedger
     from propulsion.mission import Mission
 
 __all__ = ["Finding", "budget_findings"]

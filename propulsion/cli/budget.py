@@ -20,7 +20,7 @@ def budget_command(
 
     Exit code 0 when the mission meets its targets, 1 when it falls short, 2 on bad input.
     """
-    from propulsion.budget import budget
+    from propulsion.ledger import budget
     from propulsion.mission import load_mission
 
     with guard():

@@ -21,7 +21,7 @@ def check_command(
 
     Exit code 0 when the file is valid (warnings or not), 2 when it is not.
     """
-    from propulsion.budget import budget
+    from propulsion.ledger import budget
     from propulsion.mission import load_mission
 
     try:

@@ -19,8 +19,8 @@ from propulsion.report.cautions import SAFETY_CAUTION, SAFETY_TITLE
 from propulsion.units import DisplayUnits, format_number, to_display
 
 if TYPE_CHECKING:
-    from propulsion.budget import BudgetResult
     from propulsion.catalog import PropellantFamily
+    from propulsion.ledger import BudgetResult
     from propulsion.mission import Mission
     from propulsion.plausibility import Finding
     from propulsion.vehicle import DragCurve, Motor
@@ -51,7 +51,14 @@ def _head(title: str, dimension: str, units: DisplayUnits) -> str:
 
 
 def _table(title: str) -> Table:
-    return Table(title=title, title_justify="left", box=box.SIMPLE_HEAVY, title_style="bold")
+    return Table(
+        title=title,
+        title_justify="left",
+        box=box.SIMPLE_HEAVY,
+        title_style="bold",
+        pad_edge=False,
+        collapse_padding=True,
+    )
 
 
 def caution_panel() -> Panel:
@@ -88,13 +95,14 @@ def findings_view(findings: Sequence[Finding]) -> RenderableType:
     """Plausibility warnings, each with its rule and source."""
     if not findings:
         return Text("No plausibility warnings.", style="dim")
-    table = _table("Plausibility warnings")
-    table.add_column("Subject", style="yellow")
-    table.add_column("Warning")
-    table.add_column("Rule (source)", style="dim")
+    text = Text()
+    text.append(f"Plausibility warnings ({len(findings)})\n", style="bold yellow")
     for finding in findings:
-        table.add_row(finding.subject, finding.message, f"{finding.rule} ({finding.source})")
-    return table
+        text.append("! ", style="bold yellow")
+        text.append(f"{finding.subject}: ", style="yellow")
+        text.append(f"{finding.message}.\n")
+        text.append(f"  rule: {finding.rule}; source: {finding.source}\n", style="dim")
+    return text
 
 
 def _sheet(
@@ -266,25 +274,22 @@ def data_view(
 ) -> RenderableType:
     """What `data` shows: propellant families, motors and drag curves."""
     fam = _table("Propellant families (data/propellants.csv)")
-    for title in ("Key", "Name", "Category", "Isp range (s)"):
-        fam.add_column(title)
+    fam.add_column("Key", no_wrap=True)
+    fam.add_column("Isp (s)", no_wrap=True)
     fam.add_column(_head("Density", "density", units), justify="right")
-    fam.add_column("Stage prop. fraction")
-    fam.add_column("Min liftoff T/W", justify="right")
-    fam.add_column("Source", style="dim")
+    fam.add_column("Stage fraction", no_wrap=True)
+    fam.add_column("Min T/W", justify="right")
     for f in families.values():
         fam.add_row(
             f.key,
-            f.name,
-            f.category,
             f"{f.isp_min:.0f}–{f.isp_max:.0f}",
             _q(f.density, "density", units),
             f"{f.stage_mass_fraction_min:.2f}–{f.stage_mass_fraction_max:.2f}",
             f"{f.liftoff_thrust_to_weight_min:g}",
-            f.source,
         )
+    fam.caption = "Full names and sources: `propulsion data --json` or data/propellants.csv."
     mot = _table("Demo motors (data/motors/, invented for the examples)")
-    mot.add_column("Name")
+    mot.add_column("Name", no_wrap=True)
     mot.add_column("Class", justify="center")
     mot.add_column(_head("Total impulse", "impulse", units), justify="right")
     mot.add_column(_head("Avg thrust", "force", units), justify="right")
@@ -293,7 +298,6 @@ def data_view(
     mot.add_column(_head("Propellant", "mass", units), justify="right")
     mot.add_column(_head("Loaded", "mass", units), justify="right")
     mot.add_column("Diameter (mm)", justify="right")
-    mot.add_column("Family")
     for m in motors:
         mot.add_row(
             m.name,
@@ -302,13 +306,12 @@ def data_view(
             _q(m.average_thrust, "force", units),
             _num(m.burn_time, 3),
             _num(m.specific_impulse, 3),
-            _q(m.propellant_mass, "mass", units, 3),
-            _q(m.loaded_mass, "mass", units, 3),
+            _q(m.propellant_mass, "mass", units, 2),
+            _q(m.loaded_mass, "mass", units, 2),
             f"{m.diameter * 1000:.0f}" if m.diameter else "—",
-            m.propellant_family or "—",
         )
     drag = _table("Drag curves (data/drag/, rough defaults)")
-    drag.add_column("Name")
+    drag.add_column("Name", no_wrap=True)
     drag.add_column("Mach range")
     drag.add_column("Cd range")
     for c in curves:
