@@ -68,8 +68,9 @@ class MissionError(PropulsionError, ValueError):
         parts = [f"{where}:"]
         if self.field:
             parts.append(f"field '{self.field}':")
-        parts.append(self.problem.rstrip("."))
-        message = " ".join(parts) + "."
+        problem = self.problem.rstrip(".")
+        parts.append(problem)
+        message = " ".join(parts) + ("" if problem.endswith("?") else ".")
         if self.expected:
             message += f" Expected {self.expected.rstrip('.')}."
         return message

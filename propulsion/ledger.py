@@ -96,8 +96,9 @@ class LegLedger:
     """One mission leg: required, available and delivered delta-v, propellant (SI units).
 
     ``margin`` is the delta-v available at the start of the leg beyond what the leg
-    needs (its requirement plus its reserve). An engine stage that serves later legs too
-    counts all its remaining propellant as available, including what later legs need.
+    needs (its requirement plus its reserve) and what the legs right after it, flown by
+    this leg's last stage alone, will need from the same propellant. (Burns of one stage
+    add up exactly: the rocket equation's logarithm is additive.)
     """
 
     name: str
@@ -306,8 +307,14 @@ class _Stack:
 def _fly_legs(mission: Mission, stack: _Stack) -> list[LegLedger]:
     names = [stage.name for stage in mission.vehicle.stages]
     rows = []
-    for leg in mission.legs:
+    for position, leg in enumerate(mission.legs):
         first, last = names.index(leg.stages[0]), names.index(leg.stages[-1])
+        # later legs flown by this leg's last stage alone draw on the same propellant
+        later_need = 0.0
+        for other in mission.legs[position + 1 :]:
+            if other.stages != (names[last],):
+                break
+            later_need += other.required_delta_v + other.reserve
         need = leg.required_delta_v + leg.reserve
         available = stack.capability(first, last)
         delivered = used = 0.0
@@ -317,7 +324,7 @@ def _fly_legs(mission: Mission, stack: _Stack) -> list[LegLedger]:
             gained, burnt = stack.burn(index, max(need - delivered, 0.0) if can_stop else None)
             delivered += gained
             used += burnt
-        margin = available - need
+        margin = available - need - later_need
         rows.append(
             LegLedger(
                 name=leg.name,

@@ -611,7 +611,8 @@ class _Builder:
         residual = table.quantity(
             "residual_fraction",
             "dimensionless",
-            default=margins.residual_fraction,
+            # a motor burns to depletion: the mission-wide residual is for engine stages
+            default=0.0 if motor_table is not None else margins.residual_fraction,
             low=0.0,
             high=0.5,
             expected="a fraction from 0 to 50 %",

@@ -145,3 +145,20 @@ def test_version_and_module_entry_point() -> None:
     )
     assert done.returncode == 0, done.stderr
     assert "Safety caution" in done.stdout
+
+
+def test_internal_error_exit_code_3(
+    monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]
+) -> None:
+    import propulsion.ledger
+    from propulsion.cli import main
+
+    def broken(mission: object) -> None:
+        raise RuntimeError("deliberate")
+
+    monkeypatch.setattr(propulsion.ledger, "budget", broken)
+    monkeypatch.setattr(sys, "argv", ["propulsion", "budget", str(EXAMPLES[0])])
+    with pytest.raises(SystemExit) as exit_info:
+        main()
+    assert exit_info.value.code == 3
+    assert "internal error" in capsys.readouterr().err

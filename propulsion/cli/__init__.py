@@ -6,6 +6,8 @@ Exit codes: 0 success, 1 the mission falls short of its targets, 2 bad input.
 
 from __future__ import annotations
 
+import sys
+
 import typer
 
 from propulsion import __version__
@@ -53,5 +55,34 @@ app.command("data")(_data.data_command)
 
 
 def main() -> None:
-    """Console-script entry point."""
-    app()
+    """Console-script entry point.
+
+    Exit codes: 0 success, 1 the mission falls short, 2 bad input, 3 an internal error
+    (a bug: the message asks for a report; ``--debug`` shows the traceback).
+    """
+    try:
+        code = app(standalone_mode=False)
+    except typer.Exit as exc:
+        raise SystemExit(exc.exit_code) from None
+    except click_exceptions() as exc:
+        exc.show()
+        raise SystemExit(exc.exit_code) from None
+    except (KeyboardInterrupt, EOFError):
+        raise SystemExit(130) from None
+    except Exception as exc:
+        if state.debug:
+            raise
+        sys.stderr.write(
+            f"internal error: {type(exc).__name__}: {exc}\n"
+            "This is a bug in propulsion, not in your input. Run again with --debug before "
+            "the command for the traceback, and report it.\n"
+        )
+        raise SystemExit(3) from None
+    raise SystemExit(code if isinstance(code, int) else 0)
+
+
+def click_exceptions() -> type[Exception]:
+    """The exception class typer's bundled click raises for usage errors."""
+    from typer._click.exceptions import ClickException
+
+    return ClickException

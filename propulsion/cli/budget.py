@@ -10,7 +10,9 @@ from propulsion.cli.common import JSON_OPTION, UNITS_OPTION, UnitSystem, emit_js
 
 
 def budget_command(
-    mission_file: Path = typer.Argument(..., help="Mission file (TOML).", show_default=False),
+    mission_file: Path = typer.Argument(
+        ..., help="Mission file (TOML).", show_default=False, metavar="MISSION.toml"
+    ),
     units: UnitSystem = UNITS_OPTION,
     json_output: bool = JSON_OPTION,
 ) -> None:

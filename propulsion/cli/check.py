@@ -11,7 +11,9 @@ from propulsion.errors import PropulsionError
 
 
 def check_command(
-    mission_file: Path = typer.Argument(..., help="Mission file (TOML).", show_default=False),
+    mission_file: Path = typer.Argument(
+        ..., help="Mission file (TOML).", show_default=False, metavar="MISSION.toml"
+    ),
     units: UnitSystem = UNITS_OPTION,
     json_output: bool = JSON_OPTION,
 ) -> None:
@@ -19,22 +21,20 @@ def check_command(
 
     Example: propulsion check missions/hobby_single_stage.toml
 
-    Exit code 0 when the file is valid (warnings or not), 2 when it is not.
+    Exit code 0 when the file is valid (warnings or not), 2 when it is not. With --json
+    an invalid file also prints {"valid": false, "error": ...} on stdout.
     """
     from propulsion.ledger import budget
     from propulsion.mission import load_mission
 
-    try:
-        with guard():
-            mission = load_mission(mission_file)
-            result = budget(mission)
-    except typer.Exit:
-        if json_output:
-            try:
-                load_mission(mission_file)
-            except PropulsionError as exc:
+    with guard():
+        try:
+            result = budget(load_mission(mission_file))
+        except PropulsionError as exc:
+            if json_output:
                 emit_json({"valid": False, "error": str(exc)}, caution=False)
-        raise
+            raise
+    mission = result.mission
     if json_output:
         emit_json(
             {

@@ -210,12 +210,15 @@ def budget_view(result: BudgetResult, units: DisplayUnits) -> RenderableType:
             ).lstrip("+ ")
             notes.append(f"{leg.name}: required = {terms}\n")
         margins = result.mission.margins
+        residuals = ", ".join(
+            f"{stage.name} {stage.residual_fraction:.1%}" for stage in result.mission.vehicle.stages
+        )
         notes.append(
             f"Mission reserve {_q(margins.reserve, 'speed', units)} {speed}; Δv of the "
             f"propellant left after the last leg {_q(result.leftover_delta_v, 'speed', units)} "
-            f"{speed}; unusable residual {margins.residual_fraction:.1%} of propellant by "
-            "default.\nIdeal Δv: Tsiolkovsky rocket equation with g0 = 9.80665 m/s² (vacuum "
-            "Isp for engines, delivered Isp for motors). Losses are in the loss allowances; "
+            f"{speed}; unusable residual propellant: {residuals}.\n"
+            "Ideal Δv: Tsiolkovsky rocket equation with g0 = 9.80665 m/s² (vacuum Isp for "
+            "engines, delivered Isp for motors). Losses are in the loss allowances; "
             "`propulsion fly` computes them."
         )
         parts.append(notes)
