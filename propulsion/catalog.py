@@ -20,7 +20,7 @@ import numpy as np
 
 from propulsion import thrust_curve as tc
 from propulsion.errors import DataFileError, MissionFileNotFoundError
-from propulsion.units import UnitParseError, parse_quantity
+from propulsion.units import MAX_MAGNITUDE, UnitParseError, parse_quantity
 from propulsion.vehicle import DragCurve, Motor
 
 __all__ = [
@@ -38,6 +38,14 @@ __all__ = [
 
 _HEADER_RE = re.compile(r"^\s*(?P<name>[^\[]+?)\s*(?:\[(?P<unit>[^\]]*)\])?\s*$")
 _META_RE = re.compile(r"^#\s*(?P<key>[A-Za-z_][A-Za-z0-9_]*)\s*=\s*(?P<value>.*?)\s*$")
+
+
+def is_file(path: Path) -> bool:
+    """True for an existing file; False also for names the file system refuses (too long)."""
+    try:
+        return path.is_file()
+    except (OSError, ValueError):
+        return False
 
 
 def data_dir() -> Path:
@@ -94,7 +102,7 @@ class Table:
                     "a number",
                     self.line(row),
                 ) from None
-            if not math.isfinite(value):
+            if not math.isfinite(value) or abs(value * factor) > MAX_MAGNITUDE:
                 raise DataFileError(
                     self.path,
                     name,
@@ -118,42 +126,56 @@ class Table:
 
 def read_table(path: Path) -> Table:
     """Read a data table in the project's CSV layout (see the module docstring)."""
-    if not path.is_file():
+    if not is_file(path):
         raise MissionFileNotFoundError(path, "data file")
     metadata: dict[str, str] = {}
     header: list[str] | None = None
     header_line = 0
     rows: list[list[str]] = []
     row_lines: list[int] = []
-    with path.open(newline="", encoding="utf-8") as handle:
-        for number, line in enumerate(handle, start=1):
-            stripped = line.strip()
-            if not stripped:
-                continue
-            if stripped.startswith("#"):
-                match = _META_RE.match(stripped)
-                if match:
-                    metadata[match["key"]] = match["value"]
-                continue
-            cells = next(csv.reader([stripped]))
-            if header is None:
-                header, header_line = cells, number
-            else:
-                if len(cells) != len(header):
-                    raise DataFileError(
-                        path, "", f"row has {len(cells)} values", f"{len(header)} values", number
-                    )
-                rows.append([cell.strip() for cell in cells])
-                row_lines.append(number)
+    try:
+        # utf-8-sig: spreadsheet programs start their CSV files with a byte-order mark
+        text = path.read_text(encoding="utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise DataFileError(path, "", "the file is not UTF-8 text", "a UTF-8 CSV file") from exc
+    for number, line in enumerate(text.splitlines(), start=1):
+        stripped = line.strip()
+        if not stripped:
+            continue
+        if stripped.startswith("#"):
+            match = _META_RE.match(stripped)
+            if match:
+                metadata[match["key"]] = match["value"]
+            continue
+        cells = next(csv.reader([stripped]))
+        if header is None:
+            header, header_line = cells, number
+            continue
+        if len(cells) != len(header):
+            raise DataFileError(
+                path,
+                "",
+                f"the row has {len(cells)} value(s)",
+                f"{len(header)} value(s), one per column of the header",
+                number,
+            )
+        rows.append([cell.strip() for cell in cells])
+        row_lines.append(number)
     if header is None:
         raise DataFileError(path, "", "no header line", "a header such as 'time [s],thrust [N]'")
     names: list[str] = []
     units: dict[str, str | None] = {}
+    seen: set[str] = set()
     for cell in header:
         match = _HEADER_RE.match(cell)
         if match is None:
             raise DataFileError(path, cell, "header cell unreadable", "'name [unit]'", header_line)
         name = match["name"].strip()
+        if name in seen:
+            raise DataFileError(
+                path, name, "the column appears twice", "distinct column names", header_line
+            )
+        seen.add(name)
         names.append(name)
         units[name] = match["unit"]
     columns = {name: [row[i] for row in rows] for i, name in enumerate(names)}
@@ -241,8 +263,14 @@ def read_thrust_curve(
     try:
         tc.validate_thrust_curve(time, thrust)
     except ValueError as exc:
+        row = re.search(r"row (\d+)", str(exc))
+        line = table.line(int(row.group(1)) - 1) if row else None
         raise DataFileError(
-            path, "thrust curve", str(exc), "times that increase and thrust that is not negative"
+            path,
+            "thrust curve",
+            str(exc),
+            "times that increase and thrust that is not negative",
+            line,
         ) from exc
     if propellant_mass is None:
         propellant_mass = table.meta_quantity("propellant_mass", "mass")
@@ -293,11 +321,11 @@ def load_drag_curve(name_or_path: str, relative_to: Path | None = None) -> DragC
     """Load a drag curve by shipped name (``data/drag/NAME.csv``) or by file path."""
     shipped = data_dir() / "drag" / f"{name_or_path}.csv"
     path = shipped
-    if not shipped.is_file():
+    if not is_file(shipped):
         path = Path(name_or_path)
         if relative_to is not None and not path.is_absolute():
             path = relative_to / path
-        if not path.is_file():
+        if not is_file(path):
             known = ", ".join(drag_curve_names())
             raise MissionFileNotFoundError(path, f"drag curve (shipped ones: {known})")
     table = read_table(path)

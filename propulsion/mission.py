@@ -25,7 +25,15 @@ from propulsion.targets import TARGET_KINDS, Requirement, required_delta_v
 from propulsion.units import UnitParseError, parse_quantity
 from propulsion.vehicle import DragCurve, Engine, Motor, Stage, Vehicle
 
-__all__ = ["LaunchSite", "Leg", "Margins", "Mission", "load_mission", "parse_mission"]
+__all__ = [
+    "FlightSettings",
+    "LaunchSite",
+    "Leg",
+    "Margins",
+    "Mission",
+    "load_mission",
+    "parse_mission",
+]
 
 UNIT_HINTS = {
     "mass": 'kg, g, lb or oz, for example "2.4 kg"',
@@ -51,6 +59,35 @@ class LaunchSite:
     azimuth: float | None = None
     rail_length: float | None = None
     elevation: float = math.pi / 2
+    wind_altitude: tuple[float, ...] = ()
+    wind_speed: tuple[float, ...] = ()
+
+    @property
+    def rotation(self) -> bool:
+        """True when latitude and azimuth are given: the flight uses Earth's rotation."""
+        return self.latitude is not None and self.azimuth is not None
+
+
+@dataclass(frozen=True)
+class FlightSettings:
+    """How `fly` integrates the ascent (SI: s, m/s, rad).
+
+    ``earth`` is ``"round"`` (inverse-square gravity, spherical Earth) or ``"flat"``
+    (uniform standard gravity over a flat Earth, for checks against closed forms).
+    ``stop_at`` is ``"apogee"`` or ``"ground"``. The pitch kick tilts the thrust from the
+    launch direction by ``pitch_kick_angle`` over ``pitch_kick_duration``, starting at
+    ``pitch_kick_time`` (or when the speed reaches ``pitch_kick_speed``). ``guidance`` is
+    the steering of the stages after the first: ``"gravity_turn"`` or ``"linear_tangent"``.
+    """
+
+    earth: str = "round"
+    stop_at: str = "apogee"
+    max_time: float = 7200.0
+    pitch_kick_angle: float = 0.0
+    pitch_kick_time: float | None = None
+    pitch_kick_speed: float | None = None
+    pitch_kick_duration: float = 1.0
+    guidance: str = "gravity_turn"
 
 
 @dataclass(frozen=True)
@@ -102,6 +139,7 @@ class Mission:
     legs: tuple[Leg, ...]
     margins: Margins
     launch: LaunchSite
+    flight: FlightSettings = field(default_factory=FlightSettings)
     description: str = ""
     source: str = "<mission>"
     document: dict[str, Any] = field(default_factory=dict, repr=False, compare=False)
@@ -283,7 +321,10 @@ class _Table:
                     f"the bare number {value} has no unit",
                     f"a {dimension} written with its unit in {UNIT_HINTS[dimension]}",
                 )
-            number = float(value)
+            try:
+                number = float(value)
+            except OverflowError:
+                raise self.error(key, "the number is too large", f"a {dimension}") from None
             if not math.isfinite(number):
                 raise self.error(key, f"is {value}", "a finite number")
         elif isinstance(value, str):
@@ -298,13 +339,32 @@ class _Table:
         too_low = low is not None and (number < low if low_inclusive else number <= low)
         too_high = high is not None and number > high
         if too_low or too_high:
-            raise self.error(key, f"{value!r} is out of range", expected or f"a {dimension}")
+            expected = expected or _range_text(dimension, low, high, low_inclusive)
+            raise self.error(key, f"{value!r} is out of range", expected)
         return number
 
     def table(self, key: str, allowed: set[str]) -> _Table | None:
         if key not in self.data:
             return None
         return _Table(self.builder, self.data[key], (*self.path, key), allowed)
+
+
+def _range_text(dimension: str, low: float | None, high: float | None, inclusive: bool) -> str:
+    """Describe an allowed range in words, in SI units (degrees for angles)."""
+    from propulsion.units import DIMENSIONS
+
+    unit = DIMENSIONS[dimension]
+    scale = 1.0
+    if dimension == "angle":
+        unit, scale = "deg", 180 / math.pi
+    unit = "" if unit == "dimensionless" else f" {unit}"
+    article = "an" if dimension[0] in "aeiou" else "a"
+    if low is not None and high is not None:
+        return f"{article} {dimension} from {low * scale:g} to {high * scale:g}{unit}"
+    if low is not None:
+        word = "at least" if inclusive else "above"
+        return f"{article} {dimension} {word} {low * scale:g}{unit}"
+    return f"{article} {dimension} of at most {(high or 0.0) * scale:g}{unit}"
 
 
 def _kind(value: Any) -> str:
@@ -315,15 +375,25 @@ def _kind(value: Any) -> str:
     if isinstance(value, str):
         return f"the text {value!r}" if value.strip() else "empty text"
     if isinstance(value, list):
-        return "a list"
+        return "a list" if value else "an empty list"
     if isinstance(value, Mapping):
         return "a table"
     return f"a {type(value).__name__}"
 
 
-_TOP = {"mission", "launch", "vehicle", "stage", "leg", "margins"}
+_TOP = {"mission", "launch", "vehicle", "stage", "leg", "margins", "flight"}
+_FLIGHT = {
+    "earth",
+    "stop_at",
+    "max_time",
+    "pitch_kick_angle",
+    "pitch_kick_time",
+    "pitch_kick_speed",
+    "pitch_kick_duration",
+    "guidance",
+}
 _MISSION = {"name", "description"}
-_LAUNCH = {"site_altitude", "latitude", "azimuth", "rail_length", "elevation"}
+_LAUNCH = {"site_altitude", "latitude", "azimuth", "rail_length", "elevation", "wind"}
 _VEHICLE = {"payload", "diameter", "drag_curve"}
 _STAGE = {
     "name",
@@ -389,6 +459,8 @@ class _Builder:
                 continue
             if header == path:
                 table_line = number
+            if key and header == (*path, key):
+                return number  # the field is itself a table: point at its header
         if not path and key_re is not None:
             for number, raw in enumerate(self.lines, start=1):
                 if key_re.match(raw):
@@ -414,6 +486,7 @@ class _Builder:
         description = info.string("description", default="") if info else ""
         name = name or Path(self.source).stem
         launch = self._launch(top.table("launch", _LAUNCH))
+        flight = self._flight(top.table("flight", _FLIGHT))
         margins = self._margins(top.table("margins", _MARGINS))
         vehicle_table = top.table("vehicle", _VEHICLE)
         if vehicle_table is None:
@@ -431,6 +504,7 @@ class _Builder:
             legs=tuple(legs),
             margins=margins,
             launch=launch,
+            flight=flight,
             description=description,
             source=self.source,
             document=data,
@@ -453,12 +527,93 @@ class _Builder:
             high=90 * degree,
             expected="an angle above the horizon, from 0 deg to 90 deg",
         )
+        wind_altitude, wind_speed = self._wind(table)
         return LaunchSite(
+            wind_altitude=wind_altitude,
+            wind_speed=wind_speed,
             altitude=float(altitude or 0.0),
             latitude=latitude,
             azimuth=azimuth,
             rail_length=rail,
             elevation=float(elevation or math.pi / 2),
+        )
+
+    def _wind(self, table: _Table) -> tuple[tuple[float, ...], tuple[float, ...]]:
+        if not table.has("wind"):
+            return (), ()
+        rows = table.data["wind"]
+        expected = (
+            'a list of [altitude, speed] pairs, for example [["0 m", "3 m/s"], ["1 km", "8 m/s"]]'
+        )
+        if not isinstance(rows, list) or not rows:
+            raise table.error("wind", f"is {_kind(rows)}", expected)
+        altitudes: list[float] = []
+        speeds: list[float] = []
+        for number, row in enumerate(rows, start=1):
+            if not (isinstance(row, list) and len(row) == 2):
+                raise table.error("wind", f"row {number} is {_kind(row)}", expected)
+            pair = _Table(
+                self, {"altitude": row[0], "speed": row[1]}, table.path, {"altitude", "speed"}
+            )
+            try:
+                altitude = float(pair.quantity("altitude", "length", required=True, low=0.0) or 0.0)
+                speed = float(
+                    pair.quantity("speed", "speed", required=True, low=-200.0, high=200.0) or 0.0
+                )
+            except MissionError as exc:
+                raise table.error("wind", f"row {number}: {exc.problem}", expected) from exc
+            if altitudes and altitude <= altitudes[-1]:
+                raise table.error("wind", f"row {number}: altitudes must increase", expected)
+            altitudes.append(altitude)
+            speeds.append(speed)
+        return tuple(altitudes), tuple(speeds)
+
+    def _flight(self, table: _Table | None) -> FlightSettings:
+        if table is None:
+            return FlightSettings()
+        earth = table.string("earth", default="round")
+        if earth not in ("round", "flat"):
+            raise table.error("earth", f"is {earth!r}", "'round' or 'flat'")
+        stop_at = table.string("stop_at", default="apogee")
+        if stop_at not in ("apogee", "ground"):
+            raise table.error("stop_at", f"is {stop_at!r}", "'apogee' or 'ground'")
+        guidance = table.string("guidance", default="gravity_turn")
+        if guidance not in ("gravity_turn", "linear_tangent"):
+            raise table.error("guidance", f"is {guidance!r}", "'gravity_turn' or 'linear_tangent'")
+        if table.has("pitch_kick_time") and table.has("pitch_kick_speed"):
+            raise table.error(
+                "pitch_kick_time",
+                "give pitch_kick_time or pitch_kick_speed, not both",
+                "one of them",
+            )
+        degree = math.pi / 180
+        return FlightSettings(
+            earth=earth,
+            stop_at=stop_at,
+            max_time=float(
+                table.quantity(
+                    "max_time", "time", default=7200.0, low=0.0, low_inclusive=False, high=1e6
+                )
+                or 7200.0
+            ),
+            pitch_kick_angle=float(
+                table.quantity("pitch_kick_angle", "angle", default=0.0, low=0.0, high=90 * degree)
+                or 0.0
+            ),
+            pitch_kick_time=table.quantity("pitch_kick_time", "time", low=0.0, high=1e5),
+            pitch_kick_speed=table.quantity("pitch_kick_speed", "speed", low=0.0, high=1e4),
+            pitch_kick_duration=float(
+                table.quantity(
+                    "pitch_kick_duration",
+                    "time",
+                    default=1.0,
+                    low=0.0,
+                    low_inclusive=False,
+                    high=1e4,
+                )
+                or 1.0
+            ),
+            guidance=guidance,
         )
 
     def _margins(self, table: _Table | None) -> Margins:
@@ -485,16 +640,20 @@ class _Builder:
                 except UnitParseError:
                     is_fraction = True
             dimension = "dimensionless" if is_fraction else "speed"
-            required_margin = float(
-                table.quantity(
-                    "required_margin",
-                    dimension,
-                    low=0.0,
-                    high=10.0 if is_fraction else None,
-                    expected='a delta-v such as "100 m/s" or a percentage such as "5 %"',
+            both = 'a delta-v such as "100 m/s" or a percentage such as "5 %"'
+            try:
+                required_margin = float(
+                    table.quantity(
+                        "required_margin",
+                        dimension,
+                        low=0.0,
+                        high=10.0 if is_fraction else None,
+                        expected=both,
+                    )
+                    or 0.0
                 )
-                or 0.0
-            )
+            except MissionError as exc:
+                raise table.error("required_margin", exc.problem, both) from None
         return Margins(float(reserve or 0.0), float(residual or 0.0), required_margin, is_fraction)
 
     def _drag_curve(self, table: _Table, key: str, name: str | None) -> DragCurve | None:
@@ -608,6 +767,12 @@ class _Builder:
                     "a fraction above 0 and below 1",
                 )
             inert = propellant * (1.0 - fraction) / fraction
+            if not math.isfinite(inert) or inert > 1e12:
+                raise table.error(
+                    "propellant_mass_fraction",
+                    f"is {fraction:g}: the inert mass would be absurdly large",
+                    "a fraction of at least 0.001",
+                )
         residual = table.quantity(
             "residual_fraction",
             "dimensionless",
@@ -697,7 +862,7 @@ class _Builder:
                 path = Path(table.string("file"))
                 if not path.is_absolute():
                     path = self.base_dir / path
-                if not path.is_file():
+                if not catalog.is_file(path):
                     raise table.error("file", f"thrust curve not found: {path}", "an existing CSV")
                 motor = catalog.read_thrust_curve(path, propellant, case, family)
         except DataFileError:

@@ -58,6 +58,15 @@ def _apogee(fields: dict[str, float], site_altitude: float, *_: float | None) ->
     )
 
 
+def _burnout_speed(fields: dict[str, float], *_: float | None) -> Requirement:
+    speed, allowance = fields["speed"], fields["loss_allowance"]
+    return Requirement(
+        speed + allowance,
+        (("burnout speed", speed), ("loss allowance", allowance)),
+        "speed + loss allowance",
+    )
+
+
 def _circular_orbit(
     fields: dict[str, float],
     site_altitude: float,
@@ -119,6 +128,13 @@ TARGET_KINDS: dict[str, TargetKind] = {
             {"altitude": "length", "loss_allowance": "speed"},
             {},
             _apogee,
+        ),
+        TargetKind(
+            "burnout_speed",
+            "reach a speed at the burnout of the leg's last stage",
+            {"speed": "speed", "loss_allowance": "speed"},
+            {},
+            _burnout_speed,
         ),
         TargetKind(
             "circular_orbit",

@@ -41,6 +41,11 @@ _NUMBER = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d{1,3})?"
 _QUANTITY_RE = re.compile(rf"^\s*(?P<number>{_NUMBER})\s*(?P<unit>.*?)\s*$")
 _UNIT_CHARS_RE = re.compile(r"^[A-Za-z_µμ°%Ω\s*/^().\-\d]*$")
 _EXPONENT_RE = re.compile(r"(\*\*|\^)\s*\(?\s*(-?\d+(?:\.\d+)?)\s*\)?")
+_POWER_RE = re.compile(r"\*\*|\^")
+# after a power operator: one plain number, optionally in parentheses, and no further power
+_OPERAND_RE = re.compile(
+    r"\s*(\(\s*-?\d{1,2}(\.\d+)?\s*\)|-?\d{1,2}(\.\d+)?)(?!\s*(\*\*|\^|\d|\.))"
+)
 
 # Dimension names used throughout the package, with the SI unit that the core works in.
 DIMENSIONS: dict[str, str] = {
@@ -137,6 +142,9 @@ def parse_quantity(text: str, dimension: str) -> float:
     for _, exponent in _EXPONENT_RE.findall(unit_text):
         if abs(float(exponent)) > 4:
             raise UnitParseError(text, f"exponent {exponent} is out of range (at most 4)")
+    for power in _POWER_RE.finditer(unit_text):
+        if not _OPERAND_RE.match(unit_text, power.end()):
+            raise UnitParseError(text, "an exponent must be one small number, like m^2")
     import pint
 
     try:
@@ -262,6 +270,7 @@ def format_number(value: float, digits: int = 4) -> str:
         return str(value)
     if value == 0:
         return "0"
-    magnitude = math.floor(math.log10(abs(value)))
+    # the decimals follow from the rounded value: 9.9996 shows as 10.00, not 10.000
+    magnitude = math.floor(math.log10(abs(float(f"{value:.{digits}g}"))))
     decimals = max(0, digits - 1 - magnitude)
     return f"{value:,.{decimals}f}"

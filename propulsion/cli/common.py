@@ -13,6 +13,7 @@ from typing import Any
 
 import typer
 from rich.console import Console
+from rich.text import Text
 
 from propulsion.errors import PropulsionError
 from propulsion.report.cautions import SAFETY_CAUTION
@@ -61,7 +62,8 @@ def guard() -> Iterator[None]:
     except PropulsionError as exc:
         if state.debug:
             raise
-        stderr().print(f"[bold red]error:[/bold red] {exc}", highlight=False, soft_wrap=True)
+        message = Text.assemble(("error: ", "bold red"), str(exc))  # never read as markup
+        stderr().print(message, highlight=False, soft_wrap=True)
         raise typer.Exit(exc.exit_code) from None
 
 
