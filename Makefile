@@ -2,7 +2,7 @@
 PYTHON ?= python3
 VENV ?= .venv
 BIN := $(VENV)/bin
-DEMO_MISSION ?= missions/hobby_single_stage.toml
+DEMO_MISSION ?= missions/two_stage_competition.toml
 
 .PHONY: demo test lint typecheck unit bench clean
 
@@ -19,7 +19,7 @@ $(VENV)/.installed-test: pyproject.toml | $(BIN)/python
 	touch $@ $(VENV)/.installed
 
 demo: $(VENV)/.installed
-	$(BIN)/propulsion budget $(DEMO_MISSION)
+	$(BIN)/propulsion fly $(DEMO_MISSION)
 
 lint: $(VENV)/.installed-test
 	$(BIN)/ruff check propulsion tests

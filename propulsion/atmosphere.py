@@ -229,7 +229,10 @@ def geometric_altitude(geopotential: ArrayLike) -> ArrayLike:
 def _evaluate(z: FloatArray) -> tuple[FloatArray, FloatArray, FloatArray, FloatArray]:
     """Temperature, pressure, density, speed of sound on a 1-D array; no checks."""
     h = USSA76_EARTH_RADIUS * z / (USSA76_EARTH_RADIUS + z)
-    a, lapse, log_constant, isothermal, exponent = _COEFFICIENTS[:, np.searchsorted(_LAYER_TOPS, h)]
+    # np.take fetches each element's five layer coefficients in one call; on 10 000 elements it
+    # is several times faster than the equivalent fancy index _COEFFICIENTS[:, layer].
+    layer = np.searchsorted(_LAYER_TOPS, h)
+    a, lapse, log_constant, isothermal, exponent = np.take(_COEFFICIENTS, layer, axis=1)
     temperature = a + lapse * h
     pressure = np.exp(log_constant + isothermal * h - exponent * np.log(temperature))
     density = pressure * _DENSITY_FACTOR / temperature
@@ -243,9 +246,10 @@ def density_pressure_sound(altitude: FloatArray) -> tuple[FloatArray, FloatArray
     unchecked path for the flight core.
 
     Same model and same numbers as :func:`ussa1976`, without its input checks and without the
-    temperature. Costs about a dozen numpy calls whatever the array length: one
-    ``np.searchsorted`` picks each element's layer, one fancy index fetches that layer's
-    coefficients, and a single formula serves isothermal and gradient layers alike.
+    temperature. Costs 17 numpy calls (plus ``np.asarray``) whatever the array length: one
+    ``np.searchsorted`` picks each element's layer, one ``np.take`` fetches that layer's
+    coefficients, and a single formula serves isothermal and gradient layers alike (no
+    ``np.where``).
 
     Parameters
     ----------

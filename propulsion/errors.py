@@ -15,6 +15,7 @@ __all__ = [
     "DataFileError",
     "MissionError",
     "MissionFileNotFoundError",
+    "OutputExistsError",
     "PropulsionError",
 ]
 
@@ -97,3 +98,17 @@ class MissionFileNotFoundError(PropulsionError, FileNotFoundError):
         if self.referrer:
             message = f"{self.referrer}: {message}"
         return message + "."
+
+
+class OutputExistsError(PropulsionError, FileExistsError):
+    """An output file that exists already and would be overwritten without ``--force``."""
+
+    def __init__(self, path: str | Path) -> None:
+        self.path = str(path)
+        super().__init__(self.path)
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        return (type(self), (self.path,))
+
+    def __str__(self) -> str:
+        return f"{self.path} exists already; give --force to overwrite it."

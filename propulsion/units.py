@@ -270,6 +270,8 @@ def format_number(value: float, digits: int = 4) -> str:
         return str(value)
     if value == 0:
         return "0"
+    if abs(value) < 10.0 ** -(digits + 4):
+        return f"{value:.{digits - 1}e}"  # tiny values (round-off) in scientific notation
     # the decimals follow from the rounded value: 9.9996 shows as 10.00, not 10.000
     magnitude = math.floor(math.log10(abs(float(f"{value:.{digits}g}"))))
     decimals = max(0, digits - 1 - magnitude)

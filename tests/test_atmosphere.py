@@ -48,9 +48,11 @@ def ussa1976_table_i() -> list[TableRow]:
     NOAA-S/T 76-1562: geometric altitude [m], temperature [K], pressure [Pa], density [kg/m^3],
     speed of sound [m/s], as printed (the printed digits set the tolerance).
 
-    Every value is recalled from memory. Recalled values that I was not sure of are left out
-    (None) rather than checked loosely: pressure at 15 km, 60 km and 80 km, and every value at
-    47 km.
+    Every value is recalled from memory. Values I am not sure of are left out (None) rather
+    than checked loosely: the pressures at 15, 60 and 80 km (the figures I recall, 1.2111E+04,
+    2.1958E+01 and 1.0524E+00, are doubtful: at 15 km the row's own density and temperature
+    give P = rho R* T / M0 = 12 112.1 +- 0.3 Pa, and at 80 km they barely allow 1.0524), and
+    the whole 47 km row, which I do not recall.
     """
     return [
         (0.0, "288.150", "1.01325E+05", "1.2250E+00", "340.29"),
@@ -83,34 +85,27 @@ def _printed(text: str) -> tuple[float, float]:
     return float(text), 0.5 * 10.0**exponent
 
 
-def _assert_matches_print(name: str, z: float, computed: float, text: str | None) -> float:
-    """Check ``computed`` rounds to the printed ``text``; return the error in printed units."""
+def _assert_matches_print(name: str, z: float, computed: float, text: str | None) -> None:
+    """Check that ``computed`` rounds to the printed ``text`` (skipped when None)."""
     if text is None:
-        return 0.0
+        return
     value, half_unit = _printed(text)
-    error = abs(computed - value)
     # 1e-12 relative slack only absorbs float rounding of the computed value itself.
-    assert error <= half_unit + 1e-12 * abs(value), (
+    assert abs(computed - value) <= half_unit + 1e-12 * abs(value), (
         f"{name} at {z:g} m: computed {computed!r}, Table I prints {text}"
     )
-    return error / (2.0 * half_unit)
 
 
 def test_table_i(ussa1976_table_i: list[TableRow]) -> None:
     # Tolerance: half a unit in the last printed digit (0.0005 K, 0.005 m/s, and half a unit
     # in the fifth significant figure for pressure and density): the computed value must
     # round to the printed one.
-    worst = 0.0
     for z, temperature, pressure, density, sound in ussa1976_table_i:
         state = ussa1976(z)
-        worst = max(
-            worst,
-            _assert_matches_print("temperature", z, float(state.temperature), temperature),
-            _assert_matches_print("pressure", z, float(state.pressure), pressure),
-            _assert_matches_print("density", z, float(state.density), density),
-            _assert_matches_print("speed of sound", z, float(state.speed_of_sound), sound),
-        )
-    assert worst <= 0.5  # in units of the last printed digit
+        _assert_matches_print("temperature", z, float(state.temperature), temperature)
+        _assert_matches_print("pressure", z, float(state.pressure), pressure)
+        _assert_matches_print("density", z, float(state.density), density)
+        _assert_matches_print("speed of sound", z, float(state.speed_of_sound), sound)
 
 
 def test_kinetic_temperature_at_86_km() -> None:
@@ -120,8 +115,6 @@ def test_kinetic_temperature_at_86_km() -> None:
     # from memory. Tolerance: half a unit of 186.8673 plus half a unit of 0.999579 times T.
     molecular_scale = float(ussa1976(86_000.0).temperature)
     assert molecular_scale * 0.999579 == pytest.approx(186.8673, abs=0.00005 + 0.0000005 * 187)
-    # ... which is why the molecular-scale temperature returned is higher by about 0.08 K.
-    assert molecular_scale - 186.8673 == pytest.approx(0.0786, abs=0.0002)
 
 
 def test_geopotential_top_of_lower_model() -> None:

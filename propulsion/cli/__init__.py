@@ -14,6 +14,7 @@ from propulsion import __version__
 from propulsion.cli import budget as _budget
 from propulsion.cli import check as _check
 from propulsion.cli import data as _data
+from propulsion.cli import fly as _fly
 from propulsion.cli.common import state
 
 __all__ = ["app", "main"]
@@ -50,6 +51,7 @@ def _root(
 
 
 app.command("budget")(_budget.budget_command)
+app.command("fly")(_fly.fly_command)
 app.command("check")(_check.check_command)
 app.command("data")(_data.data_command)
 
@@ -65,8 +67,8 @@ def main() -> None:
     except typer.Exit as exc:
         raise SystemExit(exc.exit_code) from None
     except click_exceptions() as exc:
-        exc.show()
-        raise SystemExit(exc.exit_code) from None
+        exc.show()  # type: ignore[attr-defined]
+        raise SystemExit(getattr(exc, "exit_code", 2)) from None
     except (KeyboardInterrupt, EOFError):
         raise SystemExit(130) from None
     except Exception as exc:

@@ -19,6 +19,7 @@ from propulsion.report.cautions import SAFETY_CAUTION, SAFETY_TITLE
 from propulsion.units import DisplayUnits, format_number, to_display
 
 if TYPE_CHECKING:
+    from propulsion.ascent import FlightResult
     from propulsion.catalog import PropellantFamily
     from propulsion.ledger import BudgetResult
     from propulsion.mission import Mission
@@ -31,6 +32,7 @@ __all__ = [
     "check_view",
     "data_view",
     "findings_view",
+    "flight_view",
     "mission_summary",
     "print_view",
     "verdict_text",
@@ -324,3 +326,87 @@ def data_view(
             f"{c.drag_coefficient.min():.2f}–{c.drag_coefficient.max():.2f}",
         )
     return Group(fam, mot, drag)
+
+
+def flight_view(result: FlightResult, units: DisplayUnits) -> RenderableType:
+    """What `fly` shows: events, the loss ledger, orbit, verdict, warnings, caution."""
+    parts: list[RenderableType] = [mission_summary(result.mission)]
+    length, speed = units.label("length"), units.label("speed")
+    events = _table("Events")
+    events.add_column("Event", no_wrap=True)
+    events.add_column("Time (s)", justify="right")
+    events.add_column(_head("Altitude", "length", units), justify="right")
+    events.add_column(_head("Speed", "speed", units), justify="right")
+    events.add_column("Mach", justify="right")
+    events.add_column("Accel. (g)", justify="right")
+    events.add_column(_head("Dyn. pressure", "pressure", units), justify="right")
+    for event in result.events:
+        events.add_row(
+            event.name,
+            _num(event.time, 4),
+            _q(event.altitude, "length", units),
+            _q(event.speed, "speed", units),
+            _num(event.mach, 3),
+            _num(event.acceleration / 9.80665, 3),
+            _q(event.dynamic_pressure, "pressure", units, 3),
+        )
+    parts.append(events)
+    rows = list(result.ledger)
+    names = [f"{row.segment}" for row in rows[:-1]] + ["total"]
+
+    def line(label: str, attribute: str) -> tuple[str, str, list[str]]:
+        return label, speed, [_q(getattr(row, attribute), "speed", units) for row in rows]
+
+    sheet: list[tuple[str, str, Sequence[str]]] = [
+        line("Ideal Δv (∫ F_vac / m dt)", "ideal"),
+        line("− gravity loss", "gravity_loss"),
+        line("− drag loss", "drag_loss"),
+        line("− steering loss", "steering_loss"),
+        line("− back-pressure loss", "pressure_loss"),
+        line("= achieved (Δ inertial speed)", "achieved"),
+        line("closure (ideal − losses − achieved)", "closure"),
+    ]
+    parts.append(
+        _sheet(
+            "Delta-v ledger of the flight (each stage from its ignition to the next)",
+            names,
+            sheet,
+            emphasise=["= achieved (Δ inertial speed)"],
+        )
+    )
+    summary = Text()
+    if math.isfinite(result.apogee):
+        summary.append(
+            f"Apogee {_q(result.apogee, 'length', units)} {length} above the site at "
+            f"{_num(result.apogee_time, 4)} s. "
+        )
+    if math.isfinite(result.rail_exit_speed):
+        summary.append(f"Rail exit at {_q(result.rail_exit_speed, 'speed', units)} {speed}. ")
+    summary.append(
+        f"Max dynamic pressure {_q(result.max_dynamic_pressure, 'pressure', units)} "
+        f"{units.label('pressure')}, max Mach {_num(result.max_mach, 3)}, max acceleration "
+        f"{_num(result.max_acceleration / 9.80665, 3)} g."
+    )
+    if result.orbit is not None:
+        orbit = result.orbit
+        summary.append(
+            f"\nOsculating orbit at the end: perigee {_q(orbit.perigee_altitude, 'length', units)} "
+            f"{length}, apogee {_q(orbit.apogee_altitude, 'length', units)} {length}, "
+            f"eccentricity {_num(orbit.eccentricity, 3)}."
+        )
+    summary.append(
+        f"\nIntegrated in {result.compute_time * 1000:.0f} ms (batched Dormand–Prince 5(4), "
+        f"{int(result.outcome.steps[0])} steps); ending: {result.status}.",
+        style="dim",
+    )
+    parts.append(summary)
+    parts.append(Text())
+
+    def fmt(value: float, dimension: str) -> str:
+        shown = to_display(value, dimension, units)
+        return f"{_num(shown, 4)} {units.label(dimension)}".strip()
+
+    parts.append(verdict_text(result.verdict.meets_targets, result.verdict.describe(fmt)))
+    parts.append(findings_view(result.findings))
+    parts.append(caution_panel())
+    return Group(*parts)

@@ -1,0 +1,836 @@
+"""The flight runner: fly a mission's ascent and turn the raw integration into a ledger.
+
+:func:`fly` integrates the stages of the first leg with :mod:`propulsion.flight`, then
+builds the delta-v ledger (ideal minus gravity, drag, steering and back-pressure losses
+equals the change of inertial speed, per stage and in total), the events a team checks,
+the verdict against the leg's target with its margin, and plausibility warnings.
+
+The margin in delta-v terms is found by root finding on the simulation: the payload mass
+that could be added (or must be removed) so that the target is just met, expressed as the
+ideal delta-v it costs.
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+import time as _time
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from propulsion import flight
+from propulsion.constants import EARTH_EQUATORIAL_RADIUS, EARTH_MU, STANDARD_GRAVITY
+from propulsion.ledger import Rows, budget
+from propulsion.mission import Mission
+from propulsion.plausibility import Finding
+
+if TYPE_CHECKING:
+    import pandas as pd
+
+__all__ = [
+    "FlightEvent",
+    "FlightResult",
+    "FlightVerdict",
+    "LossLedger",
+    "Orbit",
+    "fly",
+    "osculating_orbit",
+]
+
+FloatArray = flight.FloatArray
+
+# Rules of thumb for the flight warnings (each with its source in the finding).
+RAIL_EXIT_SPEED_MIN = 15.0
+"""Usual minimum rail exit speed [m/s] for fin-stabilised rockets (common practice, no source)."""
+TRANSONIC_MACH = 0.8
+"""Mach number above which the flow is transonic and a rough drag curve is least certain."""
+MIN_PERIGEE = 100e3
+"""Lowest perigee altitude [m] that counts as an orbit: 100 km, the edge of space by the
+convention of the Fédération Aéronautique Internationale."""
+SHORT_LIFE_PERIGEE = 150e3
+"""Perigee altitude [m] below which an orbit decays within days (common practice, no source)."""
+WAIVER_APOGEE = 3000.0
+"""Apogee above the launch site [m] beyond which flights usually need an airspace authorisation."""
+
+
+@dataclass(frozen=True)
+class Orbit:
+    """Osculating orbit of a state (two-body, Earth's GM), altitudes above the equatorial radius."""
+
+    semi_major_axis: float
+    eccentricity: float
+    perigee_altitude: float
+    apogee_altitude: float
+    specific_energy: float
+    angular_momentum: float
+
+
+def osculating_orbit(x: float, y: float, vx: float, vy: float, mu: float = EARTH_MU) -> Orbit:
+    """Osculating orbit of a planar state: semi-major axis, eccentricity, apsis altitudes.
+
+    Parameters
+    ----------
+    x, y : float
+        Position from Earth's centre in the orbit plane [m].
+    vx, vy : float
+        Inertial velocity [m/s].
+    mu : float
+        Gravitational parameter [m³/s²].
+
+    Returns
+    -------
+    Orbit
+        Elements [m, dimensionless, m, m, J/kg, m²/s]; apogee altitude is infinite for an
+        escape orbit.
+
+    References
+    ----------
+    .. [1] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed., 2013,
+       eqs. 2.80 (energy), 2.31 (angular momentum) and 2.21 (conic radius).
+    """
+    radius = math.hypot(x, y)
+    energy = 0.5 * (vx * vx + vy * vy) - mu / radius
+    momentum = x * vy - y * vx
+    eccentricity = math.sqrt(max(0.0, 1.0 + 2.0 * energy * momentum**2 / mu**2))
+    parameter = momentum**2 / mu
+    perigee = parameter / (1.0 + eccentricity)
+    apogee = parameter / (1.0 - eccentricity) if eccentricity < 1.0 else math.inf
+    semi_major = -mu / (2.0 * energy) if energy < 0 else math.inf
+    return Orbit(
+        semi_major_axis=semi_major,
+        eccentricity=eccentricity,
+        perigee_altitude=perigee - EARTH_EQUATORIAL_RADIUS,
+        apogee_altitude=apogee - EARTH_EQUATORIAL_RADIUS,
+        specific_energy=energy,
+        angular_momentum=abs(momentum),
+    )
+
+
+@dataclass(frozen=True)
+class FlightEvent:
+    """One event of the flight, with the state there (SI)."""
+
+    name: str
+    time: float
+    altitude: float
+    speed: float
+    mach: float
+    acceleration: float
+    dynamic_pressure: float
+
+    def to_dict(self) -> dict[str, Any]:
+        """Fields keyed with SI unit suffixes."""
+        return {
+            "name": self.name,
+            "time_s": self.time,
+            "altitude_m": self.altitude,
+            "speed_m_s": self.speed,
+            "mach": self.mach,
+            "acceleration_g": self.acceleration / STANDARD_GRAVITY,
+            "dynamic_pressure_pa": self.dynamic_pressure,
+        }
+
+
+@dataclass(frozen=True)
+class LossLedger:
+    """Delta-v ledger of one stage's segment of the flight, or of the whole flight (m/s).
+
+    A stage's segment runs from its ignition to the next stage's ignition (the last one
+    to the end of the flight), so coasts count with the stage before them.
+    """
+
+    segment: str
+    ideal: float
+    gravity_loss: float
+    drag_loss: float
+    steering_loss: float
+    pressure_loss: float
+    achieved: float
+
+    @property
+    def closure(self) -> float:
+        """Ideal minus losses minus achieved [m/s]: zero but for integration error."""
+        losses = self.gravity_loss + self.drag_loss + self.steering_loss + self.pressure_loss
+        return self.ideal - losses - self.achieved
+
+    def to_dict(self) -> dict[str, Any]:
+        """Fields keyed with SI unit suffixes."""
+        return {
+            "segment": self.segment,
+            "ideal_m_s": self.ideal,
+            "gravity_loss_m_s": self.gravity_loss,
+            "drag_loss_m_s": self.drag_loss,
+            "steering_loss_m_s": self.steering_loss,
+            "pressure_loss_m_s": self.pressure_loss,
+            "achieved_m_s": self.achieved,
+            "closure_m_s": self.closure,
+        }
+
+
+@dataclass(frozen=True)
+class StageFlight:
+    """A stage's ignition and burnout as flown (SI)."""
+
+    name: str
+    ignition_time: float
+    burnout_time: float
+    burnout_altitude: float
+    burnout_speed: float
+    burnout_mach: float
+
+    def to_dict(self) -> dict[str, Any]:
+        """Fields keyed with SI unit suffixes."""
+        return {
+            "name": self.name,
+            "ignition_time_s": self.ignition_time,
+            "burnout_time_s": self.burnout_time,
+            "burnout_altitude_m": self.burnout_altitude,
+            "burnout_speed_m_s": self.burnout_speed,
+            "burnout_mach": self.burnout_mach,
+        }
+
+
+@dataclass(frozen=True)
+class FlightVerdict:
+    """The flight judged against the first leg's target.
+
+    ``achieved`` and ``required`` are in the target's own terms (``dimension``: a length
+    for apogee and orbit, a speed for burnout speed); ``margin = achieved - required``.
+    ``margin_delta_v`` [m/s] is the ideal delta-v that could be taken away and still meet
+    the target, found by root finding on the added payload mass ``margin_mass`` [kg]
+    (negative: the shortfall and the payload that must come off).
+    """
+
+    target: str
+    dimension: str
+    meets_targets: bool | None
+    achieved: float
+    required: float
+    margin: float
+    margin_fraction: float
+    margin_delta_v: float
+    margin_mass: float
+    required_margin_delta_v: float
+    method: str
+
+    def describe(self, format_value: Callable[[float, str], str]) -> str:
+        """The verdict in words; ``format_value(value, dimension)`` formats quantities."""
+        if self.meets_targets is None:
+            return f"No flight target to judge ({self.method})."
+        what = {"apogee": "apogee", "burnout_speed": "burnout speed", "circular_orbit": "orbit"}
+        name = what.get(self.target, self.target)
+        dv = (
+            format_value(abs(self.margin_delta_v), "speed")
+            if math.isfinite(self.margin_delta_v)
+            else "n/a"
+        )
+        mass = (
+            format_value(abs(self.margin_mass), "mass")
+            if math.isfinite(self.margin_mass)
+            else "n/a"
+        )
+        reached = self.margin >= 0
+        if self.target == "circular_orbit":
+            left = format_value(self.margin_delta_v, "speed")
+            head = (
+                f"Reaches the orbit with {left} of delta-v left after the later legs"
+                if reached
+                else "Does not reach the orbit with the delta-v the later legs need"
+            )
+        else:
+            head = (
+                f"{'Reaches' if reached else 'Falls short of'} the {name} target: "
+                f"{format_value(self.achieved, self.dimension)} against "
+                f"{format_value(self.required, self.dimension)} "
+                f"({'+' if reached else ''}{format_value(self.margin, self.dimension)}, "
+                f"{self.margin_fraction:+.1%})"
+            )
+        if reached and not self.meets_targets:
+            required = format_value(self.required_margin_delta_v, "speed")
+            head += f", but the delta-v margin is below the required {required}"
+        if self.margin_mass >= 0:
+            tail = f"; margin {dv} of ideal delta-v, as {mass} of payload that could be added"
+        else:
+            tail = f"; short by {dv} of ideal delta-v, as {mass} of payload to take off"
+        return head + tail + "."
+
+
+@dataclass
+class FlightResult:
+    """The flown ascent: trajectory, events, loss ledger, verdict and warnings (SI)."""
+
+    mission: Mission
+    outcome: flight.Outcome = field(repr=False)
+    trajectory: pd.DataFrame = field(repr=False)
+    events: Rows[FlightEvent]
+    ledger: Rows[LossLedger]
+    stages: Rows[StageFlight]
+    verdict: FlightVerdict
+    findings: tuple[Finding, ...]
+    status: str
+    apogee: float
+    apogee_time: float
+    max_dynamic_pressure: float
+    max_mach: float
+    max_acceleration: float
+    rail_exit_speed: float
+    orbit: Orbit | None
+    compute_time: float
+
+    @property
+    def total(self) -> LossLedger:
+        """The whole-flight ledger row."""
+        return self.ledger[-1]
+
+    def to_dict(self) -> dict[str, Any]:
+        """JSON-ready results with SI unit suffixes in the keys."""
+        total = self.total
+        return {
+            "mission": self.mission.name,
+            "source": self.mission.source,
+            "status": self.status,
+            "apogee_m": self.apogee,
+            "apogee_time_s": self.apogee_time,
+            "max_dynamic_pressure_pa": self.max_dynamic_pressure,
+            "max_mach": self.max_mach,
+            "max_acceleration_g": self.max_acceleration / STANDARD_GRAVITY,
+            "rail_exit_speed_m_s": self.rail_exit_speed,
+            "stages": [row.to_dict() for row in self.stages],
+            "ledger": {
+                "ideal_m_s": total.ideal,
+                "gravity_loss_m_s": total.gravity_loss,
+                "drag_loss_m_s": total.drag_loss,
+                "steering_loss_m_s": total.steering_loss,
+                "pressure_loss_m_s": total.pressure_loss,
+                "achieved_m_s": total.achieved,
+                "closure_m_s": total.closure,
+                "segments": [row.to_dict() for row in self.ledger[:-1]],
+            },
+            "events": [event.to_dict() for event in self.events],
+            "orbit": None
+            if self.orbit is None
+            else {
+                "perigee_altitude_m": self.orbit.perigee_altitude,
+                "apogee_altitude_m": self.orbit.apogee_altitude,
+                "eccentricity": self.orbit.eccentricity,
+                "semi_major_axis_m": self.orbit.semi_major_axis,
+            },
+            "target": self.verdict.target,
+            "achieved": self.verdict.achieved,
+            "required": self.verdict.required,
+            "target_unit": {"length": "m", "speed": "m/s"}.get(self.verdict.dimension, ""),
+            "margin": self.verdict.margin,
+            "margin_fraction": self.verdict.margin_fraction,
+            "margin_delta_v_m_s": self.verdict.margin_delta_v,
+            "margin_payload_kg": self.verdict.margin_mass,
+            "margin_method": self.verdict.method,
+            "meets_targets": self.verdict.meets_targets,
+            "warnings": [finding.__dict__ for finding in self.findings],
+            "compute_time_s": self.compute_time,
+        }
+
+
+def _flown_stages(mission: Mission) -> int:
+    if not mission.legs:
+        return len(mission.vehicle.stages)
+    return mission.vehicle.stage_index(mission.legs[0].stages[-1]) + 1
+
+
+def _altitude(core: flight.FlightCore, y: FloatArray) -> FloatArray:
+    if core.round_earth:
+        return np.hypot(y[flight.X], y[flight.Y]) - EARTH_EQUATORIAL_RADIUS - core.site_altitude
+    return y[flight.Y]
+
+
+def _speed(y: FloatArray) -> FloatArray:
+    return np.hypot(y[flight.VX], y[flight.VY])
+
+
+class _Target:
+    """The first leg's target as a function of a batch's outcome (target terms, SI)."""
+
+    def __init__(self, mission: Mission, core: flight.FlightCore) -> None:
+        self.mission = mission
+        self.core = core
+        leg = mission.legs[0] if mission.legs else None
+        self.kind = leg.target if leg is not None else ""
+        self.required = math.nan
+        self.dimension = ""
+        if leg is None:
+            return
+        if self.kind == "apogee":
+            self.required, self.dimension = leg.fields["altitude"], "length"
+        elif self.kind == "burnout_speed":
+            self.required, self.dimension = leg.fields["speed"], "speed"
+        elif self.kind == "circular_orbit":
+            self.required, self.dimension = leg.fields["altitude"], "length"
+            plan = budget(mission)
+            later = sum(row.required_delta_v + row.reserve for row in plan.legs[1:])
+            self.later_need = later + mission.margins.reserve
+
+    @property
+    def judged(self) -> bool:
+        return self.kind in ("apogee", "burnout_speed", "circular_orbit")
+
+    def achieved(self, core: flight.FlightCore, outcome: flight.Outcome) -> FloatArray:
+        """The achieved value per sample in target terms (NaN where not reached)."""
+        if self.kind == "apogee":
+            times, states = outcome.events["apogee"]
+            return np.where(np.isfinite(times), _altitude(core, states), np.nan)
+        if self.kind == "burnout_speed":
+            _, states = outcome.events[f"burnout:{core.stages - 1}"]
+            return _speed(states)
+        if self.kind == "circular_orbit":
+            return _altitude(core, outcome.final_state) + core.site_altitude
+        return np.full(core.n, math.nan)
+
+    def metric(self, core: flight.FlightCore, outcome: flight.Outcome) -> FloatArray:
+        """Signed distance to the target per sample: >= 0 meets it (target terms or m/s)."""
+        if self.kind != "circular_orbit":
+            achieved = self.achieved(core, outcome)
+            return np.where(np.isfinite(achieved), achieved - self.required, -self.required)
+        return self.orbit_margin(core, outcome)
+
+    def orbit_margin(self, core: flight.FlightCore, outcome: flight.Outcome) -> FloatArray:
+        """Delta-v left after cutoff beyond the later legs' need [m/s]; negative if short."""
+        last = core.stages - 1
+        state = outcome.final_state
+        mass_end = state[flight.M]
+        ignition_mass = outcome.events[f"ignition:{last}"][1][flight.M]
+        burnt = ignition_mass - mass_end
+        remaining = np.maximum(core.usable[last] - burnt, 0.0)
+        isp_g0 = core.thrust_vacuum[last] / np.maximum(core.mass_flow[last], 1e-30)
+        left = isp_g0 * np.log(mass_end / (mass_end - remaining))
+        perigee = _perigee_altitude(state)
+        reached = (outcome.status == "orbit") & (perigee >= MIN_PERIGEE)
+        energy = 0.5 * _speed(state) ** 2 - EARTH_MU / np.hypot(state[flight.X], state[flight.Y])
+        deficit = (energy - core.cutoff_energy) / np.maximum(_speed(state), 1.0)
+        return np.where(reached, left - self.later_need, np.minimum(deficit, 0.0) - self.later_need)
+
+
+def _perigee_altitude(state: FloatArray) -> FloatArray:
+    """Perigee altitude of the osculating orbit per sample [m] (vectorised)."""
+    x, y, vx, vy = state[flight.X], state[flight.Y], state[flight.VX], state[flight.VY]
+    radius = np.hypot(x, y)
+    energy = 0.5 * (vx**2 + vy**2) - EARTH_MU / radius
+    momentum = x * vy - y * vx
+    eccentricity = np.sqrt(np.maximum(0.0, 1.0 + 2.0 * energy * momentum**2 / EARTH_MU**2))
+    return momentum**2 / EARTH_MU / (1.0 + eccentricity) - EARTH_EQUATORIAL_RADIUS
+
+
+def _stack_delta_v(core: flight.FlightCore, added: float) -> float:
+    """Ideal delta-v of the flown stages with ``added`` payload mass [m/s]."""
+    mass = float(core.mass_initial[0]) + added
+    total = 0.0
+    for k in range(core.stages):
+        if core.is_motor[k]:
+            isp_g0 = core.curve_impulse[k] / float(core.usable[k, 0])
+        else:
+            isp_g0 = float(core.thrust_vacuum[k, 0] / core.mass_flow[k, 0])
+        final = mass - float(core.usable[k, 0])
+        total += isp_g0 * math.log(mass / final)
+        mass = final - float(core.inert[k, 0] + core.propellant[k, 0] - core.usable[k, 0])
+    return total
+
+
+def _payload_margin(
+    core: flight.FlightCore, target: _Target, nominal: float, payload: float, rtol: float
+) -> tuple[float, float, str]:
+    """Payload mass that can be added (negative: removed) so the target is just met.
+
+    Root finding on the simulation, batched: a first batch of trial masses brackets the
+    root, a second batch narrows the bracket, and the secant through the bracket's ends
+    gives the mass. Returns (mass [kg], ideal delta-v it costs [m/s], method text).
+    """
+    liftoff = float(core.mass_initial[0])
+    if nominal >= 0:
+        trials = liftoff * np.array([0.0, 0.005, 0.01, 0.02, 0.05, 0.1, 0.2, 0.5, 1, 2, 5, 10, 20])
+    elif payload > 0:
+        trials = -payload * np.array([0.0, 0.05, 0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9, 1.0])
+    else:
+        return math.nan, math.nan, "short, and there is no payload to take off"
+
+    def evaluate(masses: FloatArray) -> FloatArray:
+        batch = core.take(np.zeros(masses.size, dtype=np.int64))
+        batch.mass_initial = batch.mass_initial + masses
+        return target.metric(batch, flight.simulate(batch, rtol=rtol))
+
+    values = evaluate(trials)
+    for _ in range(2):
+        sign_change = np.flatnonzero(np.sign(values[:-1]) != np.sign(values[1:]))
+        if not sign_change.size:
+            edge = trials[-1]
+            note = "more than" if nominal >= 0 else "even with all of it"
+            return (
+                edge,
+                _stack_delta_v(core, 0.0) - _stack_delta_v(core, edge),
+                (f"no root in the searched range: {note} {abs(edge):.4g} kg of payload"),
+            )
+        i = sign_change[0]
+        low, high = trials[i], trials[i + 1]
+        trials = np.linspace(low, high, 10)
+        values = evaluate(trials)
+    i = np.flatnonzero(np.sign(values[:-1]) != np.sign(values[1:]))
+    i = i[0] if i.size else 0
+    a, b, fa, fb = trials[i], trials[i + 1], values[i], values[i + 1]
+    mass = a - fa * (b - a) / (fb - fa) if fb != fa else a
+    cost = _stack_delta_v(core, 0.0) - _stack_delta_v(core, float(mass))
+    return (
+        float(mass),
+        cost,
+        "payload added until the target is just met (root finding on the simulation)",
+    )
+
+
+def _event(
+    name: str, t: float, y: FloatArray, model: flight._Model, mission: Mission
+) -> FlightEvent:
+    described = model.describe(np.array([t]), y[:, None])
+    return FlightEvent(
+        name=name,
+        time=t,
+        altitude=float(described["altitude"][0]),
+        speed=float(described["speed"][0]),
+        mach=float(described["mach"][0]),
+        acceleration=float(described["acceleration"][0]),
+        dynamic_pressure=float(described["dynamic_pressure"][0]),
+    )
+
+
+def _trajectory(core: flight.FlightCore, outcome: flight.Outcome) -> pd.DataFrame:
+    import pandas as pd
+
+    points = outcome.trajectory
+    count = len(points)
+    times = np.array([p[0] for p in points])
+    states = np.stack([p[1] for p in points], axis=1)
+    phases = [p[3] for p in points]
+    merged = flight._Phase(
+        **{
+            name: np.concatenate([getattr(ph, name) for ph in phases])
+            for name in phases[0].__dict__
+        }
+    )
+    model = flight._Model(core.take(np.zeros(count, dtype=np.int64)), merged)
+    described = model.describe(times, states)
+    frame = pd.DataFrame(
+        {
+            "time_s": times,
+            "altitude_m": described["altitude"],
+            "downrange_m": described["downrange"],
+            "speed_m_s": described["speed"],
+            "vertical_speed_m_s": described["vertical_speed"],
+            "mach": described["mach"],
+            "dynamic_pressure_pa": described["dynamic_pressure"],
+            "acceleration_g": described["acceleration"] / STANDARD_GRAVITY,
+            "flight_path_angle_deg": np.degrees(described["flight_path_angle"]),
+            "mass_kg": described["mass"],
+            "stage": [core.stage_names[int(k)] for k in merged.stage],
+        }
+    )
+    return frame
+
+
+def fly(mission: Mission, rtol: float = 1e-8, margin: bool = True) -> FlightResult:
+    """Integrate the ascent of a mission and build its delta-v ledger, events and verdict.
+
+    Parameters
+    ----------
+    mission : Mission
+        A checked mission. The stages of its first leg fly (all stages when it has none).
+    rtol : float
+        Relative tolerance of the integrator [dimensionless].
+    margin : bool
+        Find the margin in delta-v terms by root finding on added payload (several more
+        flights, batched).
+
+    Returns
+    -------
+    FlightResult
+        SI results: ``trajectory`` (pandas DataFrame), ``events``, ``ledger`` (per stage
+        segment and total), ``verdict``, ``findings``.
+
+    Notes
+    -----
+    Ideal delta-v is the integral of vacuum thrust over mass; gravity loss the integral
+    of g sin(flight-path angle); drag loss the integral of the drag's component along the
+    velocity over mass; steering loss the integral of (thrust / mass)(1 - cos(angle
+    between thrust and velocity)); back-pressure loss the integral of ambient pressure
+    times exit area over mass. Achieved is the change of inertial speed.
+
+    References
+    ----------
+    .. [1] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed., 2013,
+       section 11.2, eq. 11.8 and following (the delta-v losses of a launch).
+    """
+    started = _time.perf_counter()
+    core = flight.build_core(mission, _flown_stages(mission))
+    outcome = flight.simulate(core, rtol=rtol, record=True)
+    compute_time = _time.perf_counter() - started
+    _, phase0 = flight._initial(core)
+    model = flight._Model(core, phase0)
+    events: list[FlightEvent] = []
+
+    def add(name: str, key: str) -> None:
+        times, states = outcome.events[key]
+        if np.isfinite(times[0]):
+            events.append(
+                _event(
+                    name,
+                    float(times[0]),
+                    states[:, 0],
+                    _phase_model(core, outcome, float(times[0])),
+                    mission,
+                )
+            )
+
+    add("liftoff (ignition)", "ignition:0")
+    add("rail exit", "rail_exit")
+    for k, name in enumerate(core.stage_names):
+        if k > 0:
+            add(f"{name} ignition", f"ignition:{k}")
+        add(f"{name} burnout", f"burnout:{k}")
+        if k < core.stages - 1:
+            add(f"{name} separation", f"separation:{k}")
+    add("engine cutoff (orbit)", "cutoff")
+    for key, label in (
+        ("dynamic_pressure", "max dynamic pressure"),
+        ("mach", "max Mach"),
+        ("acceleration", "max acceleration"),
+    ):
+        times, _ = outcome.maxima[key]
+        if np.isfinite(times[0]):
+            t = float(times[0])
+            events.append(
+                _event(label, t, _state_at(outcome, t), _phase_model(core, outcome, t), mission)
+            )
+    add("apogee", "apogee")
+    add("ground impact", "ground")
+    events.sort(key=lambda event: event.time)
+    del model
+
+    ledger = _ledger(core, outcome)
+    stages = []
+    for k, name in enumerate(core.stage_names):
+        t_ign = outcome.events[f"ignition:{k}"][0][0]
+        t_bo, y_bo = outcome.events[f"burnout:{k}"]
+        burnout = next((e for e in events if e.name == f"{name} burnout"), None)
+        stages.append(
+            StageFlight(
+                name=name,
+                ignition_time=float(t_ign),
+                burnout_time=float(t_bo[0]),
+                burnout_altitude=float(_altitude(core, y_bo)[0]),
+                burnout_speed=float(_speed(y_bo)[0]),
+                burnout_mach=burnout.mach if burnout else math.nan,
+            )
+        )
+    target = _Target(mission, core)
+    status = str(outcome.status[0])
+    orbit = None
+    if core.round_earth and status in ("orbit", "burnout"):
+        y = outcome.final_state[:, 0]
+        orbit = osculating_orbit(y[flight.X], y[flight.Y], y[flight.VX], y[flight.VY])
+    verdict = _verdict(mission, core, outcome, target, margin, rtol)
+    apogee_t, apogee_y = outcome.events["apogee"]
+    rail_t, rail_y = outcome.events["rail_exit"]
+    result = FlightResult(
+        mission=mission,
+        outcome=outcome,
+        trajectory=_trajectory(core, outcome),
+        events=Rows(events),
+        ledger=Rows(ledger),
+        stages=Rows(stages),
+        verdict=verdict,
+        findings=(),
+        status=status,
+        apogee=float(_altitude(core, apogee_y)[0]) if np.isfinite(apogee_t[0]) else math.nan,
+        apogee_time=float(apogee_t[0]),
+        max_dynamic_pressure=float(outcome.maxima["dynamic_pressure"][1][0]),
+        max_mach=float(outcome.maxima["mach"][1][0]),
+        max_acceleration=float(outcome.maxima["acceleration"][1][0]),
+        rail_exit_speed=float(_speed(rail_y)[0] - 0.0) if np.isfinite(rail_t[0]) else math.nan,
+        orbit=orbit,
+        compute_time=compute_time,
+    )
+    result.findings = tuple(_findings(result, core))
+    return result
+
+
+def _state_at(outcome: flight.Outcome, t: float) -> FloatArray:
+    """State of sample 0 at time t, by Hermite interpolation between recorded steps."""
+    from propulsion.integrator import hermite
+
+    times = np.array([p[0] for p in outcome.trajectory])
+    i = int(np.clip(np.searchsorted(times, t) - 1, 0, len(times) - 2))
+    t0, y0, f0, _ = outcome.trajectory[i]
+    t1, y1, f1, _ = outcome.trajectory[i + 1]
+    h = t1 - t0
+    if h <= 0:
+        return y1
+    theta = np.array([(t - t0) / h])
+    return hermite(y0[:, None], y1[:, None], f0[:, None], f1[:, None], np.array([h]), theta)[:, 0]
+
+
+def _phase_model(core: flight.FlightCore, outcome: flight.Outcome, t: float) -> flight._Model:
+    """A model of sample 0 with the phase it had at time t (for derived quantities)."""
+    times = np.array([p[0] for p in outcome.trajectory])
+    i = int(np.clip(np.searchsorted(times, t, side="right") - 1, 0, len(times) - 1))
+    return flight._Model(core.take(np.zeros(1, dtype=np.int64)), outcome.trajectory[i][3])
+
+
+def _ledger(core: flight.FlightCore, outcome: flight.Outcome) -> list[LossLedger]:
+    marks = outcome.ledger_marks[:, :, 0]
+    speeds = outcome.speed_marks[:, 0]
+    rows = []
+    boundaries = [k for k in range(core.stages + 1) if np.isfinite(speeds[k])]
+    for a, b in itertools.pairwise(boundaries):
+        d = marks[b] - marks[a]
+        rows.append(
+            LossLedger(core.stage_names[a], d[0], d[1], d[2], d[3], d[4], speeds[b] - speeds[a])
+        )
+    d = marks[core.stages] - marks[0]
+    rows.append(
+        LossLedger("whole flight", d[0], d[1], d[2], d[3], d[4], speeds[core.stages] - speeds[0])
+    )
+    return rows
+
+
+def _verdict(
+    mission: Mission,
+    core: flight.FlightCore,
+    outcome: flight.Outcome,
+    target: _Target,
+    margin: bool,
+    rtol: float,
+) -> FlightVerdict:
+    plan = budget(mission)
+    required_dv = plan.verdict.required_margin if mission.legs else 0.0
+    if not target.judged:
+        reason = "the first leg's target is not flown" if mission.legs else "no legs stated"
+        return FlightVerdict(
+            target.kind,
+            "",
+            None,
+            math.nan,
+            math.nan,
+            math.nan,
+            math.nan,
+            math.nan,
+            math.nan,
+            required_dv,
+            reason,
+        )
+    achieved = float(target.achieved(core, outcome)[0])
+    nominal = float(target.metric(core, outcome)[0])
+    if target.kind == "circular_orbit":
+        margin_value = nominal
+        fraction = (
+            nominal / plan.verdict.total_required if plan.verdict.total_required else math.nan
+        )
+    else:
+        margin_value = achieved - target.required if math.isfinite(achieved) else -target.required
+        fraction = margin_value / target.required
+    mass = dv = math.nan
+    method = "not computed"
+    if margin:
+        mass, dv, method = _payload_margin(
+            core, target, nominal, mission.vehicle.payload_mass, rtol
+        )
+        if target.kind == "circular_orbit":
+            dv = nominal
+    meets = nominal >= 0 and (not math.isfinite(dv) or dv >= required_dv * (1 - 1e-9))
+    return FlightVerdict(
+        target=target.kind,
+        dimension=target.dimension,
+        meets_targets=bool(meets),
+        achieved=achieved,
+        required=target.required,
+        margin=margin_value,
+        margin_fraction=fraction,
+        margin_delta_v=dv,
+        margin_mass=mass,
+        required_margin_delta_v=required_dv,
+        method=method,
+    )
+
+
+def _findings(result: FlightResult, core: flight.FlightCore) -> list[Finding]:
+    findings: list[Finding] = []
+    if result.status == "no liftoff":
+        findings.append(
+            Finding(
+                "flight",
+                "the vehicle never left the pad: thrust stayed below weight",
+                "thrust must exceed weight at liftoff",
+                "Newton's second law",
+            )
+        )
+    if result.status == "time limit":
+        findings.append(
+            Finding(
+                "flight",
+                f"the flight did not reach its end within {core.max_time:g} s",
+                "flights end at apogee, orbit or impact",
+                "set [flight] max_time to allow more",
+            )
+        )
+    if math.isfinite(result.rail_exit_speed) and result.rail_exit_speed < RAIL_EXIT_SPEED_MIN:
+        findings.append(
+            Finding(
+                "rail exit",
+                f"rail exit speed {result.rail_exit_speed:.1f} m/s is below the usual minimum of "
+                f"{RAIL_EXIT_SPEED_MIN:g} m/s",
+                "fins need air speed to stabilise the rocket when it leaves the rail",
+                "common practice, no source",
+            )
+        )
+    if result.max_mach >= TRANSONIC_MACH:
+        findings.append(
+            Finding(
+                "aerodynamics",
+                f"the flight passes through the transonic range (max Mach {result.max_mach:.2f}), "
+                "where a rough drag curve is least certain",
+                "check the drag curve near Mach 1 (a rough default may not hold)",
+                "common practice, no source",
+            )
+        )
+    if math.isfinite(result.apogee) and result.apogee > WAIVER_APOGEE:
+        findings.append(
+            Finding(
+                "airspace",
+                f"apogee {result.apogee:,.0f} m above the site usually needs an airspace "
+                "authorisation or waiver",
+                f"apogees above about {WAIVER_APOGEE:,.0f} m need the aviation authority's "
+                "permission in many countries; thresholds differ",
+                "common practice, no source",
+            )
+        )
+    if (
+        result.orbit is not None
+        and MIN_PERIGEE <= result.orbit.perigee_altitude < SHORT_LIFE_PERIGEE
+    ):
+        findings.append(
+            Finding(
+                "orbit",
+                f"perigee {result.orbit.perigee_altitude / 1e3:,.0f} km: "
+                "the orbit decays within days",
+                f"a parking orbit's perigee above about {SHORT_LIFE_PERIGEE / 1e3:.0f} km",
+                "common practice, no source",
+            )
+        )
+    total = result.total
+    scale = max(abs(total.ideal), 1.0)
+    if abs(total.closure) > 1e-4 * scale:
+        findings.append(
+            Finding(
+                "ledger",
+                f"the ledger closes only to {total.closure:.3g} m/s",
+                "ideal - losses - achieved = 0",
+                "definition of the ledger",
+            )
+        )
+    return findings

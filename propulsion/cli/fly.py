@@ -1,0 +1,58 @@
+"""`propulsion fly`: integrate the ascent and print the delta-v ledger with losses."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import typer
+
+from propulsion.cli.common import JSON_OPTION, UNITS_OPTION, UnitSystem, emit_json, guard, stdout
+
+
+def fly_command(
+    mission_file: Path = typer.Argument(
+        ..., help="Mission file (TOML).", show_default=False, metavar="MISSION.toml"
+    ),
+    units: UnitSystem = UNITS_OPTION,
+    json_output: bool = JSON_OPTION,
+    trajectory: Path | None = typer.Option(
+        None, "--trajectory", help="Write the time series to this CSV file (in --units)."
+    ),
+    force: bool = typer.Option(False, "--force", help="Overwrite output files that exist."),
+    margin: bool = typer.Option(
+        True, "--margin/--no-margin", help="Find the delta-v margin by root finding (more flights)."
+    ),
+) -> None:
+    """Fly the ascent: events, the delta-v ledger with its losses, and the verdict.
+
+    Example: propulsion fly missions/two_stage_competition.toml --trajectory flight.csv
+
+    Exit code 0 when the flight meets its target, 1 when it falls short, 2 on bad input.
+    """
+    from propulsion.ascent import fly
+    from propulsion.mission import load_mission
+
+    with guard():
+        mission = load_mission(mission_file)
+        if trajectory is not None and trajectory.exists() and not force:
+            from propulsion.errors import OutputExistsError
+
+            raise OutputExistsError(trajectory)
+        if json_output:
+            result = fly(mission, margin=margin)
+        else:
+            with stdout().status("Flying the ascent…"):
+                result = fly(mission, margin=margin)
+        if trajectory is not None:
+            from propulsion.report.export import trajectory_csv
+            from propulsion.report.files import write_atomic
+
+            write_atomic(trajectory, trajectory_csv(result.trajectory, units.display()), force)
+    if json_output:
+        emit_json(result.to_dict())
+    else:
+        from propulsion.report.tables import flight_view
+
+        stdout().print(flight_view(result, units.display()))
+    if result.verdict.meets_targets is False:
+        raise typer.Exit(1)
