@@ -114,6 +114,9 @@ class FlightCore:
     linear_tangent: bool = False
     stop_at_ground: bool = False
     max_time: float = 7200.0
+    airborne: bool = False
+    """Start in free flight (off the pad) with the horizontal speed ``rotation_speed``:
+    for checks of coasting flight and for stages that start in the air."""
 
     @property
     def stages(self) -> int:
@@ -535,7 +538,7 @@ class Outcome:
 
 
 _MAXIMA = ("dynamic_pressure", "mach", "acceleration")
-_TERMINAL = ("rail_exit", "apogee", "ground", "cutoff")
+_TERMINAL = ("rail_exit", "kick", "apogee", "ground", "cutoff")
 
 
 def _initial(core: FlightCore) -> tuple[FloatArray, _Phase]:
@@ -551,11 +554,11 @@ def _initial(core: FlightCore) -> tuple[FloatArray, _Phase]:
         ignition_time=np.zeros(n),
         ignition_mass=core.mass_initial.copy(),
         next_time=np.zeros(n),
-        on_rail=core.rail_length > 0,
-        lifted=np.zeros(n, dtype=bool),
+        on_rail=(core.rail_length > 0) & (not core.airborne),
+        lifted=np.full(n, core.airborne),
         kick_start=np.where(np.isfinite(core.kick_time), core.kick_time, np.inf),
         guidance_angle=np.zeros(n),
-        risen=np.zeros(n, dtype=bool),
+        risen=np.full(n, core.airborne),
     )
     return y, phase
 
@@ -682,6 +685,12 @@ def _event_functions(batch: _Batch) -> dict[str, tuple[Any, BoolArray, int]]:
         sub = _Model(core.take(where), phase.take(where))
         return sub.geometry(y)[1] - core.site_altitude[where]
 
+    def air_speed(t: FloatArray, y: FloatArray, where: IntArray) -> FloatArray:
+        sub = _Model(core.take(where), phase.take(where))
+        radius, altitude, up_x, up_y = sub.geometry(y)
+        air_x, air_y = sub.air_velocity(y, radius, altitude, up_x, up_y)
+        return np.hypot(air_x, air_y) - core.kick_speed[where]
+
     def energy(t: FloatArray, y: FloatArray, where: IntArray) -> FloatArray:
         radius = np.hypot(y[X], y[Y])
         return 0.5 * (y[VX] ** 2 + y[VY] ** 2) - EARTH_MU / radius - core.cutoff_energy[where]
@@ -690,6 +699,7 @@ def _event_functions(batch: _Batch) -> dict[str, tuple[Any, BoolArray, int]]:
     lifted = phase.lifted
     return {
         "rail_exit": (rail, phase.on_rail, +1),
+        "kick": (air_speed, ~np.isfinite(phase.kick_start) & np.isfinite(core.kick_speed), +1),
         "apogee": (vertical, lifted & after_last_ignition & ~np.isfinite(core.cutoff_energy), -1),
         "ground": (height, lifted & phase.risen, -1),
         "cutoff": (energy, orbital & core.round_earth, +1),
@@ -808,6 +818,51 @@ def _on_step(
     return g
 
 
+def _refine_events(
+    batch: _Batch,
+    functions: dict[str, tuple[Any, BoolArray, int]],
+    names: npt.NDArray[np.object_],
+    cut: IntArray,
+    theta: FloatArray,
+    step: tuple[FloatArray, FloatArray, FloatArray, FloatArray, FloatArray, FloatArray],
+    iterations: int = 8,
+) -> tuple[FloatArray, FloatArray]:
+    """Step again from the start of the step to each event, refining its time.
+
+    The dense output gives the first estimate of the fraction ``theta``; a Dormand–Prince
+    step of that length gives the state there, as accurate as any step end (and the ledger
+    integrals see nothing beyond the event). Regula falsi (Illinois variant) on those true
+    states, bracketed by the step's ends, then moves the fraction onto the root.
+    """
+    t0, y0, y1, f0, _, h = (part[..., cut] for part in step)
+    sub = _Model(batch.core.take(cut), batch.phase.take(cut))
+
+    def event_value(states: FloatArray, times: FloatArray) -> FloatArray:
+        out = np.zeros(cut.size)
+        for name in set(names.tolist()):
+            mask = names == name
+            out[mask] = functions[name][0](times[mask], states[:, mask], cut[mask])
+        return out
+
+    low, high = np.zeros(cut.size), np.ones(cut.size)
+    g_low, g_high = event_value(y0, t0), event_value(y1, t0 + h)
+    last_side = np.zeros(cut.size)
+    for _ in range(iterations):
+        state, _, _ = rk.dp5_step(sub, t0, y0, h * theta, f0)
+        g = event_value(state, t0 + h * theta)
+        same = np.sign(g) == np.sign(g_low)
+        # Illinois modification: halve the value kept twice on the same side
+        g_high = np.where(same & (last_side == 1), 0.5 * g_high, g_high)
+        g_low = np.where(~same & (last_side == -1), 0.5 * g_low, g_low)
+        low, g_low = np.where(same, theta, low), np.where(same, g, g_low)
+        high, g_high = np.where(same, high, theta), np.where(same, g_high, g)
+        last_side = np.where(same, 1.0, -1.0)
+        denominator = np.where(g_high != g_low, g_high - g_low, 1.0)
+        theta = np.clip(low - g_low * (high - low) / denominator, low, high)
+    state, _, _ = rk.dp5_step(sub, t0, y0, h * theta, f0)
+    return theta, state
+
+
 def simulate(core: FlightCore, rtol: float = 1e-8, record: bool = False) -> Outcome:
     """Integrate a batch of flights until each one reaches its stop event.
 
@@ -867,7 +922,8 @@ def simulate(core: FlightCore, rtol: float = 1e-8, record: bool = False) -> Outc
         stop = np.zeros(batch.index.size, dtype=bool)
         fired = np.full(batch.index.size, "", dtype=object)
         theta_event = np.ones(batch.index.size)
-        for name, (function, watch, direction) in _event_functions(batch).items():
+        functions = _event_functions(batch)
+        for name, (function, watch, direction) in functions.items():
             candidates = np.flatnonzero(accept & watch)
             if not candidates.size:
                 continue
@@ -885,9 +941,12 @@ def simulate(core: FlightCore, rtol: float = 1e-8, record: bool = False) -> Outc
             fired[hit[earlier]] = name
         cut = np.flatnonzero(fired != "")
         if cut.size:
-            theta = theta_event[cut]
+            theta, redo = _refine_events(
+                batch, functions, fired[cut], cut, theta_event[cut], (t0, y0, y1, f0, f1, h)
+            )
+            theta_event[cut] = theta
             y1 = y1.copy()
-            y1[:, cut] = rk.hermite(y0[:, cut], y1[:, cut], f0[:, cut], f1[:, cut], h[cut], theta)
+            y1[:, cut] = redo
             t1 = t1.copy()
             t1[cut] = t0[cut] + theta * h[cut]
             h_next = h_next.copy()
@@ -921,6 +980,8 @@ def simulate(core: FlightCore, rtol: float = 1e-8, record: bool = False) -> Outc
             record_.event(name, batch.index[hit], batch.t[hit], batch.y[:, hit])
             if name == "rail_exit":
                 phase.on_rail[hit] = False
+            elif name == "kick":
+                phase.kick_start[hit] = batch.t[hit]
             elif name == "apogee" and batch.core.stop_at_ground:
                 pass  # recorded; the flight goes on to the ground
             elif name == "cutoff":
@@ -935,13 +996,7 @@ def simulate(core: FlightCore, rtol: float = 1e-8, record: bool = False) -> Outc
         phase.lifted |= lifted_now
         due = batch.t >= phase.next_time
         _transitions(batch, due, record_)
-        radius, altitude, up_x, up_y = batch.model.geometry(batch.y)
-        phase.risen |= altitude - batch.core.site_altitude > 1.0
-        air_x, air_y = batch.model.air_velocity(batch.y, radius, altitude, up_x, up_y)
-        kick_due = ~np.isfinite(phase.kick_start) & (
-            np.hypot(air_x, air_y) >= batch.core.kick_speed
-        )
-        phase.kick_start = np.where(kick_due, batch.t, phase.kick_start)
+        phase.risen |= batch.model.geometry(batch.y)[1] - batch.core.site_altitude > 1.0
         batch.refresh()
         orbital_burnout = (
             np.isfinite(batch.core.cutoff_energy)

@@ -125,6 +125,8 @@ def reference_flight(
         for name in fired:
             if name == "liftoff":
                 phase.lifted[:] = True
+            elif name == "kick":
+                phase.kick_start[:] = t
             elif name == "rail_exit":
                 phase.on_rail[:] = False
                 phase.lifted[:] = True

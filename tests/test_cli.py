@@ -127,7 +127,7 @@ def test_data_lists_tables() -> None:
     assert "pd-H113" in shown and "lox_kerosene" in shown
 
 
-@pytest.mark.parametrize("command", ["budget", "check", "data"])
+@pytest.mark.parametrize("command", ["budget", "check", "data", "fly"])
 def test_every_command_has_help_with_an_example(command: str) -> None:
     result = runner.invoke(app, [command, "--help"])
     assert result.exit_code == 0
@@ -162,3 +162,50 @@ def test_internal_error_exit_code_3(
         main()
     assert exit_info.value.code == 3
     assert "internal error" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("path", EXAMPLES, ids=lambda p: p.stem)
+def test_fly_runs_on_every_example(path: Path) -> None:
+    result = runner.invoke(app, ["fly", str(path), "--no-margin"])
+    assert result.exit_code == 0, result.output
+    text = " ".join(result.output.split())
+    assert "Delta-v ledger of the flight" in text and "gravity loss" in text
+    assert "Safety caution" in text and "PASS" in text
+
+
+def test_fly_json_and_trajectory_export(tmp_path: Path) -> None:
+    csv = tmp_path / "flight.csv"
+    path = str(MISSIONS / "hobby_single_stage.toml")
+    result = runner.invoke(app, ["fly", path, "--json", "--trajectory", str(csv), "--no-margin"])
+    assert result.exit_code == 0, result.output
+    data = json.loads(result.stdout)
+    assert data["safety_caution"] == SAFETY_CAUTION
+    assert data["status"] == "apogee" and data["meets_targets"] is True
+    lines = csv.read_text().splitlines()
+    assert lines[0].startswith("time [s],altitude [m],")
+    last_altitude = float(lines[-1].split(",")[1])
+    assert last_altitude == pytest.approx(data["apogee_m"], rel=1e-8)
+    # a second run refuses to overwrite, and leaves the file as it was
+    before = csv.read_bytes()
+    again = runner.invoke(app, ["fly", path, "--trajectory", str(csv), "--no-margin"])
+    assert again.exit_code == 2
+    assert "--force" in again.stderr
+    assert csv.read_bytes() == before
+    # --force overwrites, in US units (1 ft = 0.3048 m exactly, 1959 agreement)
+    forced = runner.invoke(
+        app, ["fly", path, "--trajectory", str(csv), "--force", "--units", "us", "--no-margin"]
+    )
+    assert forced.exit_code == 0
+    header, *rows = csv.read_text().splitlines()
+    assert header.startswith("time [s],altitude [ft],")
+    assert float(rows[-1].split(",")[1]) == pytest.approx(data["apogee_m"] / 0.3048, rel=1e-8)
+    assert not list(tmp_path.glob(".flight.csv.*"))  # no temporary file left behind
+
+
+def test_fly_exit_code_1_when_short(tmp_path: Path) -> None:
+    text = (MISSIONS / "hobby_single_stage.toml").read_text().replace('"1 km"', '"2 km"')
+    mission = tmp_path / "high.toml"
+    mission.write_text(text)
+    result = runner.invoke(app, ["fly", str(mission)])
+    assert result.exit_code == 1
+    assert "Falls short of the apogee target" in " ".join(result.output.split())
