@@ -25,18 +25,24 @@ __all__ = [
     "PropulsionError",
     "__version__",
     "budget",
+    "fly",
     "load_mission",
     "parse_mission",
+    "size",
 ]
 
 if TYPE_CHECKING:
+    from propulsion.ascent import fly
     from propulsion.errors import MissionError, PropulsionError
     from propulsion.ledger import budget
     from propulsion.mission import load_mission, parse_mission
     from propulsion.report.cautions import SAFETY_CAUTION
+    from propulsion.sizing import size
 
 _LAZY = {
     "budget": "propulsion.ledger",
+    "fly": "propulsion.ascent",
+    "size": "propulsion.sizing",
     "load_mission": "propulsion.mission",
     "parse_mission": "propulsion.mission",
     "MissionError": "propulsion.errors",

@@ -3,7 +3,8 @@
 The core works on arrays of shape (components, samples) of SI floats. A :class:`FlightCore`
 holds every number the equations need, one value per sample (and per stage), so that
 dispersion studies fill it with sampled values and advance thousands of flights together.
-:func:`fly` builds a core of one sample from a mission and returns a :class:`FlightResult`.
+:func:`build_core` turns a mission into a core; :func:`simulate` integrates a batch;
+:func:`propulsion.ascent.fly` runs one flight and builds the ledger from the outcome.
 
 Frame: an inertial plane through Earth's centre that holds the launch site and the launch
 direction; x downrange, y up at the launch site (round Earth: origin at Earth's centre;
@@ -52,10 +53,8 @@ COMPONENTS = ("x", "y", "vx", "vy", "mass", "ideal", "gravity", "drag", "steerin
 X, Y, VX, VY, M, IDEAL, GRAVITY, DRAG, STEERING, PRESSURE = range(10)
 _LEDGER = slice(IDEAL, PRESSURE + 1)
 
-# Absolute tolerances per component for the step control (positions [m], speeds [m/s],
-# mass [kg]); the ledger integrals are not part of the error norm.
+# Absolute tolerance of speeds [m/s] (and of the ledger integrals) in the step control.
 _ATOL_SPEED = 1e-6
-_GROUND_CLEARANCE = -1e-6
 _NEVER = math.inf
 
 
@@ -281,8 +280,11 @@ class _Model:
         site_radius = EARTH_EQUATORIAL_RADIUS + core.site_altitude
         self.origin_y = site_radius if core.round_earth else np.zeros(core.n)
         # rail direction in the inertial frame at the site: elevation above the horizon
-        self.rail_x = np.cos(core.elevation)
+        # a vertical rail is exactly vertical (cos(pi/2) is 6e-17, which a low-thrust
+        # gravity turn would grow into a pitch-over)
+        self.rail_x = np.where(np.abs(np.cos(core.elevation)) < 1e-12, 0.0, np.cos(core.elevation))
         self.rail_y = np.sin(core.elevation)
+        self.burn = core.burn_time()
 
     def rail_speed(self, y: FloatArray) -> FloatArray:
         """Speed along the rail relative to the launch site [m/s]."""
@@ -313,15 +315,25 @@ class _Model:
     ) -> tuple[FloatArray, FloatArray]:
         """Velocity relative to the (co-rotating, windy) air [m/s]."""
         core = self.core
-        horizontal = np.zeros_like(altitude)
-        if core.round_earth and np.any(core.rotation_speed != 0):
-            horizontal = horizontal + core.rotation_speed * radius / (
-                EARTH_EQUATORIAL_RADIUS + core.site_altitude
-            )
+        horizontal = self._surface_speed(radius, altitude)
         if core.wind_altitude.size:
             wind = np.interp(altitude - core.site_altitude, core.wind_altitude, core.wind_speed)
             horizontal = horizontal + core.wind_scale * wind
         # downrange horizontal unit vector is the up vector turned by -90 degrees
+        return y[VX] - horizontal * up_y, y[VY] + horizontal * up_x
+
+    def _surface_speed(self, radius: FloatArray, altitude: FloatArray) -> FloatArray:
+        """Horizontal speed of the co-rotating Earth (and its air) at a radius [m/s]."""
+        core = self.core
+        if core.round_earth and np.any(core.rotation_speed != 0):
+            site_radius = EARTH_EQUATORIAL_RADIUS + core.site_altitude
+            return core.rotation_speed * radius / site_radius
+        return np.zeros_like(altitude)
+
+    def ground_velocity(self, y: FloatArray) -> tuple[FloatArray, FloatArray]:
+        """Velocity relative to the rotating Earth (no wind) [m/s]."""
+        radius, altitude, up_x, up_y = self.geometry(y)
+        horizontal = self._surface_speed(radius, altitude)
         return y[VX] - horizontal * up_y, y[VY] + horizontal * up_x
 
     def thrust(
@@ -407,10 +419,7 @@ class _Model:
             if np.any(steering):
                 # linear-tangent law driving the pitch above the local horizon from its value
                 # at ignition to zero at burnout: tan(theta) = tan(theta0) (1 - tau / T).
-                burn = np.ones(core.n)
-                for k in range(1, core.stages):
-                    mask = phase.stage == k
-                    burn[mask] = core.usable[k, mask] / np.maximum(core.mass_flow[k, mask], 1e-30)
+                burn = np.take_along_axis(self.burn, phase.stage[None, :], axis=0)[0]
                 tau = np.clip((t - phase.ignition_time) / burn, 0.0, 1.0)
                 theta = np.arctan(np.tan(phase.guidance_angle) * (1.0 - tau))
                 gx = np.cos(theta) * up_y + np.sin(theta) * up_x
@@ -428,7 +437,7 @@ class _Model:
         density, pressure, sound = density_pressure_sound(altitude)
         air_x, air_y = self.air_velocity(y, radius, altitude, up_x, up_y)
         air_speed = np.hypot(air_x, air_y)
-        mach = air_speed / sound
+        mach = np.where(density > 0, air_speed / sound, 0.0)  # no Mach number in vacuum
         cd, area = self.drag_coefficient(mach)
         drag = 0.5 * density * air_speed * cd * area  # drag force / air speed [N s/m]
         thrust, ideal, back, flow = self.thrust(t, pressure)
@@ -489,8 +498,13 @@ class _Model:
         sensed_y = derivative[VY] + g * up_y
         speed = np.hypot(y[VX], y[VY])
         vertical = y[VX] * up_x + y[VY] * up_y
+        ground_x, ground_y = self.ground_velocity(y)
         if self.core.round_earth:
-            downrange = EARTH_EQUATORIAL_RADIUS * np.arctan2(y[X], y[Y])
+            # the site turns with the Earth: measure downrange from where it is now
+            site_rate = self.core.rotation_speed / (
+                EARTH_EQUATORIAL_RADIUS + self.core.site_altitude
+            )
+            downrange = EARTH_EQUATORIAL_RADIUS * (np.arctan2(y[X], y[Y]) - site_rate * t)
         else:
             downrange = y[X]
         return {
@@ -498,9 +512,10 @@ class _Model:
             "altitude_sea_level": altitude,
             "downrange": downrange,
             "speed": speed,
+            "ground_speed": np.hypot(ground_x, ground_y),
             "vertical_speed": vertical,
             "air_speed": air_speed,
-            "mach": air_speed / sound,
+            "mach": np.where(density > 0, air_speed / sound, 0.0),
             "dynamic_pressure": 0.5 * density * air_speed**2,
             "acceleration": np.hypot(sensed_x, sensed_y),
             "flight_path_angle": np.arcsin(
@@ -712,7 +727,7 @@ def _air_quantities(model: _Model, y: FloatArray) -> FloatArray:
     density, _, sound = density_pressure_sound(altitude)
     air_x, air_y = model.air_velocity(y, radius, altitude, up_x, up_y)
     air_speed = np.hypot(air_x, air_y)
-    return np.stack([0.5 * density * air_speed**2, air_speed / sound])
+    return np.stack([0.5 * density * air_speed**2, np.where(density > 0, air_speed / sound, 0.0)])
 
 
 def _sensed_acceleration(model: _Model, y: FloatArray, derivative: FloatArray) -> FloatArray:
@@ -882,9 +897,11 @@ def simulate(core: FlightCore, rtol: float = 1e-8, record: bool = False) -> Outc
 
     Notes
     -----
-    Steps end exactly on scheduled changes (ignitions, burnouts, separations, the pitch
-    kick). Rail exit, apogee, ground impact and orbital cutoff are located by bisection
-    on the cubic Hermite dense output, and the step is cut there. Maxima of dynamic
+    Steps end exactly on scheduled changes (ignitions, burnouts, separations, thrust-curve
+    breakpoints, the start and end of a timed pitch kick). Rail exit, a pitch kick by
+    speed, apogee, ground impact and orbital cutoff are located by bisection on the cubic
+    Hermite dense output, then refined by stepping again to the event (Illinois regula
+    falsi on the integrated states), and the step ends there. Maxima of dynamic
     pressure, Mach number and acceleration are located inside steps by golden-section
     search on the dense output.
     """

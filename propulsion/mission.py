@@ -403,6 +403,7 @@ _STAGE = {
     "diameter",
     "drag_curve",
     "residual_fraction",
+    "tank_fraction",
     "separation_delay",
     "ignition_delay",
     "motor",
@@ -587,6 +588,14 @@ class _Builder:
                 "one of them",
             )
         degree = math.pi / 180
+        has_angle = table.has("pitch_kick_angle")
+        has_when = table.has("pitch_kick_time") or table.has("pitch_kick_speed")
+        if has_angle != has_when:
+            raise table.error(
+                "pitch_kick_angle" if has_when else "pitch_kick_time",
+                "a pitch kick needs both its angle and when it starts",
+                "pitch_kick_angle with pitch_kick_time or pitch_kick_speed",
+            )
         return FlightSettings(
             earth=earth,
             stop_at=stop_at,
@@ -792,6 +801,9 @@ class _Builder:
         )
         drag_name = table.string("drag_curve", default="") or None
         stage_drag = self._drag_curve(table, "drag_curve", drag_name) if drag_name else drag
+        tank = table.quantity(
+            "tank_fraction", "dimensionless", low=0.0, high=1.0, expected="a fraction from 0 to 1"
+        )
         separation = table.quantity("separation_delay", "time", default=0.0, low=0.0, high=3600)
         ignition = table.quantity("ignition_delay", "time", default=0.0, low=0.0, high=1e5)
         return Stage(
@@ -803,6 +815,7 @@ class _Builder:
             residual_fraction=float(residual or 0.0),
             diameter=stage_diameter,
             drag_curve=stage_drag,
+            tank_fraction=tank,
             separation_delay=float(separation or 0.0),
             ignition_delay=float(ignition or 0.0),
         )

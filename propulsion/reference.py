@@ -131,6 +131,8 @@ def reference_flight(
                 phase.on_rail[:] = False
                 phase.lifted[:] = True
                 record.event(name, np.array([0]), batch.t, batch.y)
+            elif name == "apogee" and one.stop_at_ground:
+                record.event(name, np.array([0]), batch.t, batch.y)  # recorded; flies on
             else:
                 record.event(name, np.array([0]), batch.t, batch.y)
                 status = {"cutoff": "orbit"}.get(name, name)

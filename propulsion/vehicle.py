@@ -161,6 +161,9 @@ class Stage:
         Reference diameter for drag [m].
     drag_curve : DragCurve or None
         Drag coefficient of the stack while this stage is the lowest one.
+    tank_fraction : float or None
+        Inert mass added per unit of added propellant when the stage is resized
+        [dimensionless]; None when the mission does not say.
     separation_delay : float
         Time from burnout to separation of this stage [s].
     ignition_delay : float
@@ -175,6 +178,7 @@ class Stage:
     residual_fraction: float = 0.0
     diameter: float | None = None
     drag_curve: DragCurve | None = None
+    tank_fraction: float | None = None
     separation_delay: float = 0.0
     ignition_delay: float = 0.0
 

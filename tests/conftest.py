@@ -6,7 +6,16 @@ import tomllib
 from pathlib import Path
 from typing import Any
 
+import os
+
 import pytest
+from hypothesis import settings
+
+# CI runs the property tests on a fixed sequence of examples, so a red build can be
+# reproduced; on a developer's machine they explore new examples on every run.
+settings.register_profile("ci", derandomize=True, print_blob=True)
+if os.environ.get("CI") == "true":
+    settings.load_profile("ci")
 
 MISSIONS_DIR = Path(__file__).resolve().parent.parent / "missions"
 

@@ -127,7 +127,7 @@ def test_data_lists_tables() -> None:
     assert "pd-H113" in shown and "lox_kerosene" in shown
 
 
-@pytest.mark.parametrize("command", ["budget", "check", "data", "fly"])
+@pytest.mark.parametrize("command", ["budget", "check", "data", "fly", "size", "pick"])
 def test_every_command_has_help_with_an_example(command: str) -> None:
     result = runner.invoke(app, [command, "--help"])
     assert result.exit_code == 0

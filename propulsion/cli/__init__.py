@@ -15,6 +15,8 @@ from propulsion.cli import budget as _budget
 from propulsion.cli import check as _check
 from propulsion.cli import data as _data
 from propulsion.cli import fly as _fly
+from propulsion.cli import pick as _pick
+from propulsion.cli import size as _size
 from propulsion.cli.common import state
 
 __all__ = ["app", "main"]
@@ -52,6 +54,8 @@ def _root(
 
 app.command("budget")(_budget.budget_command)
 app.command("fly")(_fly.fly_command)
+app.command("size")(_size.size_command)
+app.command("pick")(_pick.pick_command)
 app.command("check")(_check.check_command)
 app.command("data")(_data.data_command)
 

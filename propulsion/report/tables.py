@@ -24,6 +24,7 @@ if TYPE_CHECKING:
     from propulsion.ledger import BudgetResult
     from propulsion.mission import Mission
     from propulsion.plausibility import Finding
+    from propulsion.sizing import SizingResult
     from propulsion.vehicle import DragCurve, Motor
 
 __all__ = [
@@ -35,6 +36,7 @@ __all__ = [
     "flight_view",
     "mission_summary",
     "print_view",
+    "sizing_view",
     "verdict_text",
 ]
 
@@ -408,5 +410,75 @@ def flight_view(result: FlightResult, units: DisplayUnits) -> RenderableType:
 
     parts.append(verdict_text(result.verdict.meets_targets, result.verdict.describe(fmt)))
     parts.append(findings_view(result.findings))
+    parts.append(caution_panel())
+    return Group(*parts)
+
+
+def sizing_view(result: SizingResult, units: DisplayUnits) -> RenderableType:
+    """What `size` shows: the two solutions side by side, assumptions, verdicts, caution."""
+    parts: list[RenderableType] = [mission_summary(result.mission)]
+    ref = result.field
+    dimension = "dimensionless" if ref.is_count else ref.dimension
+    unit = "" if ref.is_count else units.label(dimension)
+    target_unit = units.label(result.target_dimension)
+
+    def value(number: float) -> str:
+        if not math.isfinite(number):
+            return "—"
+        if ref.is_count:
+            return f"{number:.0f}"
+        return _q(number, dimension, units, 5)
+
+    solutions = (result.budget, result.flight)
+    per = f"per {ref.si_unit or 'unit'}"
+    target_unit_si = {"length": "m", "speed": "m/s"}.get(result.target_dimension, "")
+    if result.target_kind == "circular_orbit":
+        flight_quantity = "m/s of delta-v margin"
+    else:
+        flight_quantity = f"{target_unit_si} of {result.target_kind}"
+    rows: list[tuple[str, str, Sequence[str]]] = [
+        (f"Solved {ref.name}", unit, [value(s.value) for s in solutions]),
+        ("Current value", unit, [value(result.initial_value)] * 2),
+        (
+            "Margin at the solution",
+            "",
+            [
+                f"{_num(result.budget.margin, 3)} m/s beyond the required margin",
+                f"{_num(result.flight.margin, 3)} (target terms)",
+            ],
+        ),
+        (
+            "Sensitivity",
+            "",
+            [
+                f"{_num(result.budget.sensitivity, 3)} m/s of Δv margin {per}",
+                f"{_num(result.flight.sensitivity, 3)} {flight_quantity} {per}",
+            ],
+        ),
+        ("Evaluations", "", [str(s.evaluations) for s in solutions]),
+        ("How", "", [s.message for s in solutions]),
+    ]
+    parts.append(
+        _sheet(
+            f"Sizing {ref.name} for the {result.target_kind} target "
+            f"({_q(result.target_value, result.target_dimension, units)} {target_unit})",
+            ["ideal budget (loss allowance)", "flight simulation"],
+            rows,
+            emphasise=[f"Solved {ref.name}"],
+        )
+    )
+    parts.append(Text(f"Assumption: {result.inert_rule}.", style="dim"))
+    if result.budget_result is not None:
+        budget = result.budget_result.verdict
+        parts.append(verdict_text(budget.meets_targets, "Budget: " + budget.describe(units)))
+    if result.flight_result is not None:
+        flown = result.flight_result
+
+        def fmt(number: float, dim: str) -> str:
+            return f"{_num(to_display(number, dim, units), 4)} {units.label(dim)}".strip()
+
+        parts.append(
+            verdict_text(flown.verdict.meets_targets, "Flight: " + flown.verdict.describe(fmt))
+        )
     parts.append(caution_panel())
     return Group(*parts)

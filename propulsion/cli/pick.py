@@ -1,0 +1,311 @@
+"""`propulsion pick`: choose motors and stack size for the airframe sections of a mission."""
+
+from __future__ import annotations
+
+import math
+import re
+from enum import StrEnum
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+import typer
+
+from propulsion.cli.common import (
+    JSON_OPTION,
+    UNITS_OPTION,
+    UnitSystem,
+    emit_json,
+    guard,
+    stderr,
+    stdout,
+)
+
+if TYPE_CHECKING:
+    from rich.console import RenderableType
+
+    from propulsion.selection import PickResult
+    from propulsion.units import DisplayUnits
+
+__all__ = ["Rank", "parse_motors", "parse_stage_counts", "pick_command", "pick_view"]
+
+
+class Rank(StrEnum):
+    """Ranking criteria, as written on the command line."""
+
+    least_impulse = "least-impulse"
+    least_mass = "least-mass"
+    nearest_apogee = "nearest-apogee"
+    largest_margin = "largest-margin"
+
+
+_RANGE_RE = re.compile(r"^\s*(\d{1,3})\s*(?:\.\.\s*(\d{1,3})\s*)?$")
+
+
+def parse_stage_counts(text: str) -> tuple[int, ...]:
+    """Read ``--stages``: a count (``"2"``) or an inclusive range (``"1..2"``).
+
+    Parameters
+    ----------
+    text : str
+        The option's text.
+
+    Returns
+    -------
+    tuple of int
+        The stage counts, ascending [count].
+
+    Raises
+    ------
+    PickError
+        Text that is neither a count nor a range, or a range that runs backwards.
+    """
+    from propulsion.selection import PickError
+
+    match = _RANGE_RE.match(text)
+    expected = "a stage count such as 2, or a range such as 1..2"
+    if match is None:
+        raise PickError(f"--stages '{text}' is not a stage count or range", expected)
+    low = int(match.group(1))
+    high = int(match.group(2)) if match.group(2) is not None else low
+    if high < low:
+        raise PickError(f"--stages '{text}' runs backwards", expected)
+    return tuple(range(low, high + 1))
+
+
+def parse_motors(text: str | None) -> list[str] | Path | None:
+    """Read ``--motors``: an existing folder of curves, or a comma-separated list of names.
+
+    Parameters
+    ----------
+    text : str or None
+        The option's text; None for every shipped motor.
+
+    Returns
+    -------
+    list of str, Path or None
+        Motor names, a folder, or None.
+    """
+    if text is None:
+        return None
+    path = Path(text)
+    if path.is_dir() or ("," not in text and ("/" in text or "\\" in text)):
+        return path
+    return [name.strip() for name in text.split(",") if name.strip()]
+
+
+def pick_view(result: PickResult, units: DisplayUnits, top: int = 15) -> RenderableType:
+    """The selection as a spreadsheet-like table, best first, with a summary and the caution.
+
+    Parameters
+    ----------
+    result : PickResult
+        What :func:`propulsion.selection.pick` returned (SI units).
+    units : DisplayUnits
+        Display units for the table.
+    top : int
+        Rows shown [count].
+
+    Returns
+    -------
+    RenderableType
+        A rich renderable.
+    """
+    from rich.console import Group
+    from rich.text import Text
+
+    from propulsion.report.tables import (
+        _head,
+        _num,
+        _q,
+        _table,
+        caution_panel,
+        mission_summary,
+        verdict_text,
+    )
+    from propulsion.selection import CRITERION_TEXT
+
+    length = units.label("length")
+    shown = list(result.rows[: max(top, 0)])
+    title = f"Motor choices, best first by {CRITERION_TEXT[result.criterion]}"
+    if result.flown > len(shown):
+        title += f" (top {len(shown)} of {result.flown} flown)"
+    table = _table(title)
+    table.add_column("#", justify="right", no_wrap=True)
+    table.add_column("Motors per stage", no_wrap=True)
+    table.add_column(_head("Impulse", "impulse", units), justify="right", min_width=7)
+    with_mass = result.criterion == "least_mass"  # the ranked quantity; always in --json
+    if with_mass:
+        table.add_column(_head("Mass", "mass", units), justify="right", min_width=5)
+    table.add_column("T/W", justify="right", min_width=4)
+    table.add_column(_head("Rail exit", "speed", units), justify="right", min_width=5)
+    table.add_column("Mach", justify="right", min_width=5)
+    table.add_column(_head("Apogee", "length", units), justify="right", min_width=6)
+    table.add_column(_head("Margin", "length", units), justify="right", min_width=7)
+    table.add_column("Verdict", min_width=5)
+    for row in shown:
+        margin = _q(row.margin, "length", units)
+        if math.isfinite(row.margin) and row.margin > 0:
+            margin = "+" + margin
+        verdict = Text("meets", style="green") if row.meets_target else Text("short", style="red")
+        if row.warnings:
+            verdict.append(f" !{len(row.warnings)}", style="yellow")
+        mass = [_q(row.liftoff_mass, "mass", units)] if with_mass else []
+        table.add_row(
+            "—" if row.rank is None else str(row.rank),
+            row.motors.replace("; ", "\n"),
+            f"{_q(row.total_impulse, 'impulse', units)} {row.impulse_class}",
+            *mass,
+            _num(row.liftoff_thrust_to_weight, 3),
+            _q(row.rail_exit_speed, "speed", units, 3),
+            _num(row.max_mach, 3),
+            _q(row.apogee, "length", units),
+            margin,
+            verdict,
+        )
+    pruned = result.pruned
+    target = f"{_q(result.target_apogee, 'length', units)} {length}"
+    summary = Text()
+    summary.append(
+        f"{result.enumerated} combination(s) fit the airframe; "
+        f"{len(result.pruned_rows)} pruned by the ideal budget "
+        f"({pruned['delta_v']} below the drag-free "
+        f"{_q(result.drag_free_delta_v, 'speed', units)} {units.label('speed')}, "
+        f"{pruned['thrust_to_weight']} with liftoff T/W below 1); "
+        f"{result.flown} flown; {result.meeting} meet the {target} apogee."
+    )
+    notes = Text(
+        "Flown as `propulsion fly --no-margin` does; 'meets' means the apogee reaches the "
+        "target (the mission's required delta-v margin is not checked). Mass: at liftoff. "
+        "T/W: liftoff thrust-to-weight (average thrust). Mach: the highest. !n: plausibility "
+        "warnings (listed by --json). Clusters need 2, 2.155 and 2.414 motor diameters for "
+        "2, 3 and 4 motors.",
+        style="dim",
+    )
+    best = result.best
+    if best is not None:
+        verdict_line = verdict_text(
+            True,
+            f"Best by {CRITERION_TEXT[result.criterion]}: {best.motors}; total impulse "
+            f"{_q(best.total_impulse, 'impulse', units)} {units.label('impulse')} "
+            f"({best.impulse_class}), apogee {_q(best.apogee, 'length', units)} {length}.",
+        )
+    else:
+        closest = result.rows[0] if result.rows else None
+        text = f"No stack reaches the {target} apogee"
+        if closest is not None and math.isfinite(closest.apogee):
+            text += (
+                f"; the closest is {closest.motors} at "
+                f"{_q(closest.apogee, 'length', units)} {length}"
+            )
+        verdict_line = verdict_text(False, text + ".")
+    sheet: RenderableType = table
+    if not shown:
+        sheet = Text("No stack was flown: the ideal budget ruled out every combination.")
+    return Group(
+        mission_summary(result.mission),
+        sheet,
+        summary,
+        notes,
+        Text(),
+        verdict_line,
+        caution_panel(),
+    )
+
+
+def pick_command(
+    mission_file: Path = typer.Argument(
+        ..., help="Mission file (TOML).", show_default=False, metavar="MISSION.toml"
+    ),
+    motors: str | None = typer.Option(
+        None,
+        "--motors",
+        "-m",
+        help="A folder of thrust-curve CSV files, or shipped motor names separated by commas "
+        "(default: every shipped motor).",
+        show_default=False,
+    ),
+    stages: str | None = typer.Option(
+        None,
+        "--stages",
+        "-s",
+        help="Stack sizes to try: a count (2) or a range (1..2); default: 1 up to the "
+        "mission's number of stages. A k-stage stack flies the top k stages.",
+        show_default=False,
+    ),
+    max_cluster: int = typer.Option(
+        1, "--max-cluster", min=1, max=4, help="Most motors side by side in one stage (1-4)."
+    ),
+    rank: Rank = typer.Option(Rank.least_impulse, "--rank", "-r", help="How to rank the stacks."),
+    apogee: str | None = typer.Option(
+        None,
+        "--apogee",
+        help='Target apogee above the site, with its unit ("3 km"), instead of the first leg\'s.',
+        show_default=False,
+    ),
+    top: int = typer.Option(15, "--top", min=1, help="Rows shown in the table."),
+    units: UnitSystem = UNITS_OPTION,
+    json_output: bool = JSON_OPTION,
+) -> None:
+    """Pick motors and stack size from a motor library to reach the target apogee.
+
+    The mission's stages are the airframe sections (inert mass without motors, diameter,
+    drag curve). Every motor that fits is tried in every section, alone or clustered;
+    stacks that cannot reach the target even without losses are pruned, the rest are
+    flown and ranked.
+
+    Example: propulsion pick missions/two_stage_competition.toml --stages 1..2 --max-cluster 2
+
+    Exit code 0 when at least one stack meets the target, 1 when none does, 2 on bad input.
+    """
+    from rich.progress import (
+        BarColumn,
+        MofNCompleteColumn,
+        Progress,
+        TextColumn,
+        TimeRemainingColumn,
+    )
+
+    from propulsion.mission import load_mission
+    from propulsion.selection import PickError, pick
+    from propulsion.units import UnitParseError, parse_quantity
+
+    with guard():
+        mission = load_mission(mission_file)
+        counts = parse_stage_counts(stages) if stages is not None else None
+        target = None
+        if apogee is not None:
+            try:
+                target = parse_quantity(apogee, "length")
+            except UnitParseError as exc:
+                raise PickError(
+                    f"--apogee {apogee!r}: {exc.reason}", 'a height with its unit, such as "3 km"'
+                ) from exc
+        with Progress(
+            TextColumn("Flying candidate stacks"),
+            BarColumn(),
+            MofNCompleteColumn(),
+            TimeRemainingColumn(),
+            console=stderr(),
+            transient=True,
+            disable=json_output,
+        ) as bar:
+            task = bar.add_task("fly", total=None)
+
+            def advance(done: int, total: int) -> None:
+                bar.update(task, completed=done, total=total)
+
+            result = pick(
+                mission,
+                motors=parse_motors(motors),
+                stage_counts=counts,
+                max_cluster=max_cluster,
+                criterion=rank.value,
+                target_apogee=target,
+                progress=advance,
+            )
+    if json_output:
+        emit_json(result.to_dict())
+    else:
+        stdout().print(pick_view(result, units.display(), top))
+    if result.meeting == 0:
+        raise typer.Exit(1)

@@ -1,0 +1,729 @@
+"""Motor and stack selection: which library motors, in which clusters, reach the target.
+
+:func:`pick` treats a mission's ``[[stage]]`` tables as airframe sections (inert mass
+without motors, diameter, drag curve, delays) and tries every motor of a library in every
+section, alone or clustered, for stacks of one or more sections. A candidate with k stages
+flies the top k sections, so the one-stage candidate of a two-stage mission is the
+sustainer section alone, carrying the payload.
+
+Candidates are enumerated (the motors must fit the section), pruned with the ideal budget
+(a candidate that cannot reach the target even without losses, or that cannot lift off,
+is not flown), flown with :func:`propulsion.ascent.fly`, and ranked by a criterion: least
+total impulse (what flying fields limit), least liftoff mass, apogee nearest the target
+(what competitions score) or largest margin.
+"""
+
+from __future__ import annotations
+
+import copy
+import dataclasses
+import difflib
+import itertools
+import math
+import time as _time
+from collections.abc import Callable, Iterable, Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+from propulsion.errors import MissionFileNotFoundError, PropulsionError
+from propulsion.ledger import Rows
+from propulsion.vehicle import Motor
+
+if TYPE_CHECKING:
+    import pandas as pd
+
+    from propulsion.mission import Mission
+
+__all__ = [
+    "CLUSTER_SPAN",
+    "CRITERIA",
+    "Candidate",
+    "MotorOption",
+    "PickError",
+    "PickResult",
+    "PrunedCandidate",
+    "cluster_fits",
+    "motor_options",
+    "pick",
+]
+
+CRITERIA: tuple[str, ...] = ("least_impulse", "least_mass", "nearest_apogee", "largest_margin")
+"""Ranking criteria of :func:`pick`."""
+
+CRITERION_TEXT = {
+    "least_impulse": "least total impulse",
+    "least_mass": "least liftoff mass",
+    "nearest_apogee": "apogee nearest the target",
+    "largest_margin": "largest apogee margin",
+}
+"""Each criterion in words, for reports."""
+
+# Diameter of the smallest circle holding n equal circles of diameter 1 (common geometry of
+# equal circles in a circle). Closed forms: two circles side by side span 2; three touching
+# circles have their centres on an equilateral triangle of side 1, circumradius 1/sqrt(3),
+# so they span 1 + 2/sqrt(3) = 2.1547; four sit on a square of side 1, half-diagonal
+# 1/sqrt(2), so they span 1 + sqrt(2) = 2.4142.
+CLUSTER_SPAN: dict[int, float] = {
+    1: 1.0,
+    2: 2.0,
+    3: 1.0 + 2.0 / math.sqrt(3.0),
+    4: 1.0 + math.sqrt(2.0),
+}
+"""Section diameter needed per motor diameter for a cluster of 1 to 4 motors [-]."""
+
+MAX_CLUSTER = max(CLUSTER_SPAN)
+"""Largest cluster :func:`pick` tries."""
+
+PRUNE_REASONS = ("delta_v", "thrust_to_weight")
+"""Why a candidate was not flown: ideal delta-v below the drag-free requirement, or
+liftoff thrust-to-weight below 1."""
+
+_FIT_TOLERANCE = 1e-9  # relative: "54 mm" in "54 mm" fits despite rounding of the SI floats
+
+
+class PickError(PropulsionError, ValueError):
+    """A selection request that cannot be run (unknown motor, bad stage count, ...).
+
+    Parameters
+    ----------
+    problem : str
+        What is wrong, in plain words.
+    expected : str
+        What would have been accepted.
+    """
+
+    def __init__(self, problem: str, expected: str = "") -> None:
+        self.problem = problem
+        self.expected = expected
+        super().__init__(problem, expected)
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        return (type(self), (self.problem, self.expected))
+
+    def __str__(self) -> str:
+        problem = self.problem.rstrip(".")
+        message = problem + ("" if problem.endswith("?") else ".")
+        if self.expected:
+            message += f" Expected {self.expected.rstrip('.')}."
+        return message
+
+
+@dataclass(frozen=True, eq=False)
+class MotorOption:
+    """A motor the selection may use: a shipped one (by name) or a curve file (SI inside)."""
+
+    name: str
+    motor: Motor
+    file: Path | None = None
+
+    def table(self, count: int) -> dict[str, Any]:
+        """The ``[stage.motor]`` table that flies ``count`` of this motor."""
+        if self.file is None:
+            return {"name": self.name, "count": count}
+        return {"file": str(self.file), "count": count}
+
+
+def cluster_fits(motor_diameter: float | None, count: int, section_diameter: float | None) -> bool:
+    """Whether ``count`` equal motors fit side by side inside a section.
+
+    Parameters
+    ----------
+    motor_diameter : float or None
+        Diameter of one motor [m]; None (not stated) always fits.
+    count : int
+        Motors in the cluster, 1 to 4.
+    section_diameter : float or None
+        Inner diameter available in the section [m]; None (not stated) fits anything.
+
+    Returns
+    -------
+    bool
+        True when ``CLUSTER_SPAN[count] * motor_diameter <= section_diameter``.
+
+    Raises
+    ------
+    ValueError
+        If ``count`` is not 1 to 4.
+
+    Notes
+    -----
+    The span of n equal circles of diameter d packed in the smallest circle is d (n = 1),
+    2 d (n = 2), (1 + 2/sqrt(3)) d (n = 3) and (1 + sqrt(2)) d (n = 4). The section
+    diameter is taken as the room for motors: walls, centring rings and a central motor
+    tube are the user's allowance.
+
+    References
+    ----------
+    .. [1] Common geometry of equal circles in a circle (closed forms from the triangle
+       and the square of touching circles).
+    """
+    if count not in CLUSTER_SPAN:
+        raise ValueError(f"cluster of {count} motors: expected 1 to {MAX_CLUSTER}")
+    if motor_diameter is None or section_diameter is None:
+        return True
+    return CLUSTER_SPAN[count] * motor_diameter <= section_diameter * (1.0 + _FIT_TOLERANCE)
+
+
+def motor_options(motors: Sequence[str] | str | Path | None = None) -> tuple[MotorOption, ...]:
+    """Resolve a motor library: shipped motors by name, or every curve in a folder.
+
+    Parameters
+    ----------
+    motors : sequence of str, str, Path or None
+        Names of shipped motors (``["pd-G58", "pd-H113"]``); a folder (str or Path) of
+        thrust-curve CSV files in the project's format; None for every shipped motor.
+
+    Returns
+    -------
+    tuple of MotorOption
+        The motors, in the order given (shipped ones in impulse order, a folder's files in
+        name order), without duplicates.
+
+    Raises
+    ------
+    PickError
+        An unknown motor name (with the closest name), an empty list, or a folder without
+        curves.
+    MissionFileNotFoundError
+        The folder does not exist.
+    DataFileError
+        A curve file in the folder that cannot be read.
+
+    References
+    ----------
+    .. [1] data/README.md of this project ("Adding a motor"): the thrust-curve format.
+    """
+    from propulsion import catalog
+
+    if motors is None:
+        return tuple(MotorOption(name, catalog.load_motor(name)) for name in catalog.motor_names())
+    if isinstance(motors, str | Path):
+        folder = Path(motors)
+        if not folder.is_dir():
+            raise MissionFileNotFoundError(folder, "motor folder")
+        files = sorted(path for path in folder.glob("*.csv") if catalog.is_file(path))
+        if not files:
+            raise PickError(
+                f"the folder {folder} holds no thrust curves",
+                "CSV files in the format of data/README.md ('time [s],thrust [N]')",
+            )
+        return tuple(
+            MotorOption(curve.name, curve, path.resolve())
+            for path in files
+            for curve in (catalog.read_thrust_curve(path),)
+        )
+    names = [name.strip() for name in motors if name.strip()]
+    if not names:
+        raise PickError("no motors given", "one or more motor names, or a folder of curves")
+    known = catalog.motor_names()
+    options: list[MotorOption] = []
+    for name in dict.fromkeys(names):
+        if name not in known:
+            close = difflib.get_close_matches(name, known, n=1)
+            hint = f"; did you mean '{close[0]}'?" if close else ""
+            raise PickError(
+                f"no shipped motor is called '{name}'{hint}",
+                "names listed by `propulsion data`: " + ", ".join(known),
+            )
+        options.append(MotorOption(name, catalog.load_motor(name)))
+    return tuple(options)
+
+
+@dataclass(frozen=True)
+class Candidate:
+    """One flown candidate stack: its motors and how it flew (SI units).
+
+    ``margin`` is apogee minus target [m] (minus the target when the flight never reached
+    an apogee); ``margin_fraction`` divides it by the target. ``rank`` is the place by the
+    criterion (None for a candidate that falls short, except when ranking by nearest
+    apogee, which ranks every candidate). ``warnings`` are the plausibility findings of
+    the budget and of the flight.
+    """
+
+    rank: int | None
+    motors: str
+    stages: tuple[str, ...]
+    choice: tuple[tuple[str, int, str | None], ...]
+    total_impulse: float
+    impulse_class: str
+    liftoff_mass: float
+    liftoff_thrust_to_weight: float
+    ideal_delta_v: float
+    rail_exit_speed: float
+    max_mach: float
+    apogee: float
+    margin: float
+    margin_fraction: float
+    meets_target: bool
+    warnings: tuple[str, ...]
+    mission: Mission = field(repr=False, compare=False)
+
+    def to_dict(self) -> dict[str, Any]:
+        """Fields keyed with SI unit suffixes, for JSON and DataFrames."""
+        return {
+            "rank": self.rank,
+            "motors": self.motors,
+            "stages": list(self.stages),
+            "stage_motors": [
+                {"stage": stage, "motor": motor, "count": count, "file": file}
+                for stage, (motor, count, file) in zip(self.stages, self.choice, strict=True)
+            ],
+            "total_impulse_n_s": self.total_impulse,
+            "impulse_class": self.impulse_class,
+            "liftoff_mass_kg": self.liftoff_mass,
+            "liftoff_thrust_to_weight": self.liftoff_thrust_to_weight,
+            "ideal_delta_v_m_s": self.ideal_delta_v,
+            "rail_exit_speed_m_s": self.rail_exit_speed,
+            "max_mach": self.max_mach,
+            "apogee_m": self.apogee,
+            "margin_m": self.margin,
+            "margin_fraction": self.margin_fraction,
+            "meets_target": self.meets_target,
+            "warning_count": len(self.warnings),
+            "warnings": list(self.warnings),
+        }
+
+
+@dataclass(frozen=True)
+class PrunedCandidate:
+    """A candidate the ideal budget ruled out before flying (SI units).
+
+    ``reason`` is ``"delta_v"`` (ideal delta-v below the drag-free requirement) or
+    ``"thrust_to_weight"`` (liftoff thrust-to-weight below 1).
+    """
+
+    motors: str
+    stages: tuple[str, ...]
+    reason: str
+    total_impulse: float
+    liftoff_mass: float
+    liftoff_thrust_to_weight: float
+    ideal_delta_v: float
+    mission: Mission = field(repr=False, compare=False)
+
+    def to_dict(self) -> dict[str, Any]:
+        """Fields keyed with SI unit suffixes, for JSON and DataFrames."""
+        return {
+            "motors": self.motors,
+            "stages": list(self.stages),
+            "reason": self.reason,
+            "total_impulse_n_s": self.total_impulse,
+            "liftoff_mass_kg": self.liftoff_mass,
+            "liftoff_thrust_to_weight": self.liftoff_thrust_to_weight,
+            "ideal_delta_v_m_s": self.ideal_delta_v,
+        }
+
+
+@dataclass(frozen=True)
+class PickResult:
+    """The selection: flown candidates best first, the pruned ones, and the counts (SI).
+
+    ``rows`` holds every flown candidate: those that meet the target first, in the order
+    of the criterion, then those that fall short, closest first (by nearest apogee: all
+    of them by their distance to the target). ``drag_free_delta_v`` [m/s] is the ideal
+    delta-v below which a candidate was pruned.
+    """
+
+    mission: Mission
+    criterion: str
+    target_apogee: float
+    drag_free_delta_v: float
+    stage_counts: tuple[int, ...]
+    max_cluster: int
+    enumerated: int
+    rows: Rows[Candidate]
+    pruned_rows: Rows[PrunedCandidate]
+    compute_time: float
+
+    @property
+    def flown(self) -> int:
+        """Candidates flown."""
+        return len(self.rows)
+
+    @property
+    def meeting(self) -> int:
+        """Flown candidates whose apogee reaches the target."""
+        return sum(row.meets_target for row in self.rows)
+
+    @property
+    def pruned(self) -> dict[str, int]:
+        """Candidates pruned by the ideal budget, per reason (see ``PRUNE_REASONS``)."""
+        return {
+            reason: sum(row.reason == reason for row in self.pruned_rows)
+            for reason in PRUNE_REASONS
+        }
+
+    @property
+    def best(self) -> Candidate | None:
+        """The first candidate by the criterion that meets the target, if any."""
+        return next((row for row in self.rows if row.meets_target), None)
+
+    def ranked_by(self, criterion: str) -> PickResult:
+        """The same flights ranked by another criterion (no flight is repeated)."""
+        criterion = _criterion(criterion)
+        return dataclasses.replace(
+            self,
+            criterion=criterion,
+            rows=Rows(_rank(self.rows, criterion, self.target_apogee)),
+        )
+
+    def to_frame(self) -> pd.DataFrame:
+        """The flown candidates as a DataFrame; column names carry their SI unit."""
+        return self.rows.to_frame()
+
+    def to_dict(self) -> dict[str, Any]:
+        """Everything as plain JSON-ready values with SI unit suffixes in the keys."""
+        best = self.best
+        return {
+            "mission": self.mission.name,
+            "source": self.mission.source,
+            "criterion": self.criterion,
+            "target": "apogee",
+            "target_apogee_m": self.target_apogee,
+            "drag_free_delta_v_m_s": self.drag_free_delta_v,
+            "stage_counts": list(self.stage_counts),
+            "max_cluster": self.max_cluster,
+            "enumerated": self.enumerated,
+            "pruned": len(self.pruned_rows),
+            "pruned_by_delta_v": self.pruned["delta_v"],
+            "pruned_by_thrust_to_weight": self.pruned["thrust_to_weight"],
+            "flown": self.flown,
+            "meeting": self.meeting,
+            "best": None if best is None else best.to_dict(),
+            "candidates": [row.to_dict() for row in self.rows],
+            "pruned_candidates": [row.to_dict() for row in self.pruned_rows],
+            "compute_time_s": self.compute_time,
+        }
+
+
+@dataclass(frozen=True)
+class _Section:
+    index: int
+    name: str
+    diameter: float | None
+    table: dict[str, Any]
+
+
+def _criterion(criterion: str) -> str:
+    key = str(criterion).strip().lower().replace("-", "_")
+    if key not in CRITERIA:
+        close = difflib.get_close_matches(key, CRITERIA, n=1)
+        hint = f"; did you mean '{close[0]}'?" if close else ""
+        raise PickError(
+            f"unknown ranking criterion '{criterion}'{hint}", "one of " + ", ".join(CRITERIA)
+        )
+    return key
+
+
+def _sections(mission: Mission) -> list[_Section]:
+    document = mission.document
+    tables = document.get("stage") if isinstance(document, dict) else None
+    if not isinstance(tables, list) or len(tables) != len(mission.vehicle.stages):
+        raise PickError(
+            f"the mission '{mission.name}' carries no mission document to build candidates from",
+            "a mission read with load_mission or parse_mission",
+        )
+    sections = []
+    for index, (stage, table) in enumerate(zip(mission.vehicle.stages, tables, strict=True)):
+        if not stage.is_motor:
+            raise PickError(
+                f"stage '{stage.name}' is an engine stage; pick chooses motors for motor stages",
+                "a mission whose [[stage]] tables each have a [stage.motor]",
+            )
+        sections.append(_Section(index, stage.name, stage.diameter, table))
+    return sections
+
+
+def _stage_counts(stage_counts: Iterable[int] | None, sections: int) -> tuple[int, ...]:
+    if stage_counts is None:
+        return tuple(range(1, sections + 1))
+    counts = tuple(sorted(set(stage_counts)))
+    valid = f"stage counts from 1 to {sections} (the mission has {sections} stage(s))"
+    if not counts:
+        raise PickError("no stage count given", valid)
+    for count in counts:
+        if isinstance(count, bool) or not isinstance(count, int) or not 1 <= count <= sections:
+            raise PickError(f"a stack of {count!r} stages cannot be built", valid)
+    return counts
+
+
+def _leg_template(mission: Mission, target_apogee: float | None) -> dict[str, Any]:
+    """The first leg (stages filled in per candidate), as a mission-document table."""
+    legs = mission.document.get("leg")
+    first: dict[str, Any] = copy.deepcopy(legs[0]) if isinstance(legs, list) and legs else {}
+    if target_apogee is not None:
+        if not (math.isfinite(target_apogee) and target_apogee > 0):
+            raise PickError(
+                f"the target apogee {target_apogee!r} m is not a height",
+                "a finite apogee above 0 m",
+            )
+        allowance = first.get("loss_allowance", "0 m/s")
+        leg = {"name": first.get("name", "boost and coast to apogee"), "target": "apogee"}
+        leg["altitude"] = f"{target_apogee!r} m"
+        leg["loss_allowance"] = allowance
+        if "reserve" in first:
+            leg["reserve"] = first["reserve"]
+        return leg
+    if not first:
+        raise PickError(
+            f"the mission '{mission.name}' states no [[leg]], so there is no target to reach",
+            'a [[leg]] with target = "apogee", or a target apogee',
+        )
+    if first.get("target") != "apogee":
+        raise PickError(
+            f"the first leg's target is '{first.get('target', 'delta_v')}'; "
+            "pick ranks stacks by the apogee they reach",
+            'a first [[leg]] with target = "apogee", or a target apogee',
+        )
+    return first
+
+
+def _label(names: Sequence[str], combo: Sequence[tuple[MotorOption, int]]) -> str:
+    parts = []
+    for name, (option, count) in zip(names, combo, strict=True):
+        parts.append(f"{name}: {count} × {option.name}" if count > 1 else f"{name}: {option.name}")
+    return "; ".join(parts)
+
+
+def _rotation_speed(mission: Mission) -> float:
+    launch = mission.launch
+    if not launch.rotation or mission.flight.earth != "round":
+        return 0.0
+    from propulsion.orbits import earth_rotation_speed
+
+    assert launch.latitude is not None and launch.azimuth is not None
+    return abs(float(earth_rotation_speed(launch.latitude, launch.azimuth)))
+
+
+def _finite(value: float, fallback: float = math.inf) -> float:
+    return value if math.isfinite(value) else fallback
+
+
+def _rank(rows: Iterable[Candidate], criterion: str, target: float) -> list[Candidate]:
+    """Order candidates by a criterion and number them (see :class:`PickResult`)."""
+    rows = list(rows)
+    if criterion == "nearest_apogee":
+        ordered = sorted(
+            rows,
+            key=lambda r: (_finite(abs(r.apogee - target)), r.total_impulse, r.motors),
+        )
+        return [dataclasses.replace(row, rank=i) for i, row in enumerate(ordered, start=1)]
+    keys: dict[str, Callable[[Candidate], tuple[float | str, ...]]] = {
+        "least_impulse": lambda r: (r.total_impulse, r.liftoff_mass, r.motors),
+        "least_mass": lambda r: (r.liftoff_mass, r.total_impulse, r.motors),
+        "largest_margin": lambda r: (-_finite(r.margin, -math.inf), r.total_impulse, r.motors),
+    }
+    meeting = sorted((row for row in rows if row.meets_target), key=keys[criterion])
+    short = sorted(
+        (row for row in rows if not row.meets_target),
+        key=lambda r: (-_finite(r.margin, -math.inf), r.total_impulse, r.motors),
+    )
+    ranked = [dataclasses.replace(row, rank=i) for i, row in enumerate(meeting, start=1)]
+    return ranked + [dataclasses.replace(row, rank=None) for row in short]
+
+
+def pick(
+    mission: Mission,
+    motors: Sequence[str] | str | Path | None = None,
+    stage_counts: Iterable[int] | None = None,
+    max_cluster: int = 1,
+    criterion: str = "least_impulse",
+    target_apogee: float | None = None,
+    progress: Callable[[int, int], None] | None = None,
+) -> PickResult:
+    """Choose motors and stack size for a mission's airframe sections to reach an apogee.
+
+    Parameters
+    ----------
+    mission : Mission
+        A mission read with :func:`propulsion.load_mission` or
+        :func:`propulsion.parse_mission`; its ``[[stage]]`` tables are the airframe
+        sections (inert mass without motors, diameter, drag curve, delays), in firing order,
+        and every one must be a motor stage. Its first leg gives the target (an apogee).
+    motors : sequence of str, str, Path or None
+        Shipped motor names, or a folder of thrust-curve CSV files; None for every
+        shipped motor (see :func:`motor_options`).
+    stage_counts : iterable of int or None
+        Stack sizes to try, each from 1 to the number of sections. A k-stage candidate
+        flies the top k sections. None tries every size.
+    max_cluster : int
+        Most motors per section, 1 to 4 (they must fit side by side, see
+        :func:`cluster_fits`).
+    criterion : str
+        ``"least_impulse"``, ``"least_mass"``, ``"nearest_apogee"`` or
+        ``"largest_margin"`` (hyphens are accepted too).
+    target_apogee : float or None
+        Apogee above the launch site [m] to aim at instead of the first leg's altitude
+        (needed when the mission states no leg). The leg's loss allowance and reserve stay.
+    progress : callable or None
+        Called as ``progress(done, total)`` after each flight [count, count].
+
+    Returns
+    -------
+    PickResult
+        Flown candidates best first, pruned candidates, the counts, the target apogee [m]
+        and the drag-free ideal delta-v used for pruning [m/s].
+
+    Raises
+    ------
+    PickError
+        Unknown motor or criterion, stage counts out of range, a cluster size out of range,
+        an engine stage, or no apogee target.
+
+    Notes
+    -----
+    Each candidate is a copy of the mission document with the top k stage tables, their
+    ``[stage.motor]`` replaced by the chosen motor and count, and the first leg flown by
+    those k stages (later legs are dropped). Its total ideal delta-v (Tsiolkovsky, with
+    everything above each stage riding along) is compared with the drag-free requirement,
+    the leg's required delta-v minus its loss allowance: the vertical burnout speed
+    :math:`v = \\sqrt{2\\mu(1/r_0 - 1/r_a)}` that coasts to the target. While a rocket climbs,
+    gravity and drag only slow it, so its speed never exceeds the delta-v burnt so far and
+    its energy gain never exceeds :math:`\\Delta v^2/2`; a stack whose ideal delta-v is
+    below :math:`v` cannot reach the target in any flight. With Earth's rotation the
+    site's rotation speed is subtracted from :math:`v` (energy of the starting speed); a
+    wind's push on a slow rocket is neglected. Stacks whose liftoff thrust-to-weight
+    (average thrust of the first stage over liftoff weight, as in the budget) is below 1
+    are pruned too. Survivors are flown with ``fly(margin=False)``: a candidate meets the
+    target when its apogee reaches the target altitude (the delta-v margin the mission
+    asks for is not checked). Ties are broken by total impulse.
+
+    References
+    ----------
+    .. [1] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed., 2013,
+       eq. 2.80 (energy law) and sections 11.3 and 11.5 (rocket equation, staging).
+    .. [2] Common geometry of equal circles in a circle (the cluster fit).
+    """
+    from propulsion.ascent import fly
+    from propulsion.ledger import budget
+    from propulsion.mission import parse_mission
+    from propulsion.thrust_curve import impulse_class
+
+    started = _time.perf_counter()
+    criterion = _criterion(criterion)
+    if (
+        isinstance(max_cluster, bool)
+        or not isinstance(max_cluster, int)
+        or not (1 <= max_cluster <= MAX_CLUSTER)
+    ):
+        raise PickError(
+            f"a cluster of up to {max_cluster!r} motors is not supported",
+            f"a whole number from 1 to {MAX_CLUSTER}",
+        )
+    sections = _sections(mission)
+    counts = _stage_counts(stage_counts, len(sections))
+    leg = _leg_template(mission, target_apogee)
+    options = motor_options(motors)
+    base_dir = Path(mission.source).parent
+
+    per_section = [
+        [
+            (option, count)
+            for option in options
+            for count in range(1, max_cluster + 1)
+            if cluster_fits(option.motor.diameter, count, section.diameter)
+        ]
+        for section in sections
+    ]
+    base = {key: value for key, value in mission.document.items() if key not in ("stage", "leg")}
+    rotation = _rotation_speed(mission)
+
+    enumerated = 0
+    survivors: list[tuple[str, tuple[str, ...], Any, Mission, Any]] = []
+    pruned: list[PrunedCandidate] = []
+    target = math.nan
+    drag_free = math.nan
+    for k in counts:
+        chosen = sections[-k:]
+        names = tuple(section.name for section in chosen)
+        for combo in itertools.product(*per_section[-k:]):
+            enumerated += 1
+            document = copy.deepcopy(base)
+            stages = []
+            for section, (option, count) in zip(chosen, combo, strict=True):
+                table = copy.deepcopy(section.table)
+                table["motor"] = option.table(count)
+                stages.append(table)
+            document["stage"] = stages
+            document["leg"] = [{**copy.deepcopy(leg), "stages": list(names)}]
+            candidate = parse_mission(document, source=mission.source, base_dir=base_dir)
+            first = candidate.legs[0]
+            target = first.fields["altitude"]
+            allowance = first.fields.get("loss_allowance", 0.0)
+            drag_free = max(first.required_delta_v - allowance - rotation, 0.0)
+            plan = budget(candidate)
+            ideal = plan.total_ideal_delta_v
+            thrust_to_weight = plan.stages[0].thrust_to_weight
+            label = _label(names, combo)
+            impulse = sum(stage.total_impulse for stage in candidate.vehicle.stages)
+            reason = ""
+            if ideal < drag_free:
+                reason = "delta_v"
+            elif thrust_to_weight < 1.0:
+                reason = "thrust_to_weight"
+            if reason:
+                pruned.append(
+                    PrunedCandidate(
+                        motors=label,
+                        stages=names,
+                        reason=reason,
+                        total_impulse=impulse,
+                        liftoff_mass=candidate.vehicle.liftoff_mass,
+                        liftoff_thrust_to_weight=thrust_to_weight,
+                        ideal_delta_v=ideal,
+                        mission=candidate,
+                    )
+                )
+            else:
+                survivors.append((label, names, combo, candidate, plan))
+    if not enumerated:
+        raise PickError(
+            "no motor of the list fits the airframe sections",
+            "motors no wider than the sections (clusters need 2, 2.155 or 2.414 motor diameters)",
+        )
+
+    flown: list[Candidate] = []
+    for done, (label, names, combo, candidate, plan) in enumerate(survivors, start=1):
+        result = fly(candidate, margin=False)
+        impulse = sum(stage.total_impulse for stage in candidate.vehicle.stages)
+        verdict = result.verdict
+        findings = (*plan.findings, *result.findings)
+        flown.append(
+            Candidate(
+                rank=None,
+                motors=label,
+                stages=names,
+                choice=tuple(
+                    (option.name, count, None if option.file is None else str(option.file))
+                    for option, count in combo
+                ),
+                total_impulse=impulse,
+                impulse_class=impulse_class(impulse),
+                liftoff_mass=candidate.vehicle.liftoff_mass,
+                liftoff_thrust_to_weight=plan.stages[0].thrust_to_weight,
+                ideal_delta_v=plan.total_ideal_delta_v,
+                rail_exit_speed=result.rail_exit_speed,
+                max_mach=result.max_mach,
+                apogee=result.apogee,
+                margin=verdict.margin,
+                margin_fraction=verdict.margin_fraction,
+                meets_target=bool(verdict.meets_targets),
+                warnings=tuple(f"{f.subject}: {f.message}" for f in findings),
+                mission=candidate,
+            )
+        )
+        if progress is not None:
+            progress(done, len(survivors))
+    return PickResult(
+        mission=mission,
+        criterion=criterion,
+        target_apogee=target,
+        drag_free_delta_v=drag_free,
+        stage_counts=counts,
+        max_cluster=max_cluster,
+        enumerated=enumerated,
+        rows=Rows(_rank(flown, criterion, target)),
+        pruned_rows=Rows(pruned),
+        compute_time=_time.perf_counter() - started,
+    )
