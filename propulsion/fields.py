@@ -222,5 +222,5 @@ def set_value(document: dict[str, Any], ref: FieldRef, value: float) -> dict[str
     elif ref.dimension == "dimensionless":
         node[ref.path[-1]] = float(value)
     else:
-        node[ref.path[-1]] = f"{value!r} {ref.si_unit}"
+        node[ref.path[-1]] = f"{float(value)!r} {ref.si_unit}"
     return changed

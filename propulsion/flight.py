@@ -656,9 +656,10 @@ def _transitions(batch: _Batch, due: BoolArray, record: _Recorder) -> None:
                 phase.ignition_time[where] = t[where]
                 phase.ignition_mass[where] = y[M, where]
                 phase.next_time[where] = t[where] + batch.burn[k, where]
-                _, _, up_x, up_y = batch.model.geometry(y[:, where])
+                _, _, up_x, up_y = batch.model.geometry(y)
                 speed = np.hypot(y[VX, where], y[VY, where])
-                vertical = (y[VX, where] * up_x + y[VY, where] * up_y) / np.maximum(speed, 1e-9)
+                vertical = y[VX, where] * up_x[where] + y[VY, where] * up_y[where]
+                vertical = vertical / np.maximum(speed, 1e-9)
                 phase.guidance_angle[where] = np.arcsin(np.clip(vertical, -1.0, 1.0))
             if np.any(burnout):
                 where = np.flatnonzero(burnout)

@@ -2,11 +2,10 @@
 
 from __future__ import annotations
 
+import os
 import tomllib
 from pathlib import Path
 from typing import Any
-
-import os
 
 import pytest
 from hypothesis import settings

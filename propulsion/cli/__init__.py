@@ -17,6 +17,7 @@ from propulsion.cli import data as _data
 from propulsion.cli import fly as _fly
 from propulsion.cli import pick as _pick
 from propulsion.cli import size as _size
+from propulsion.cli import split as _split
 from propulsion.cli.common import state
 
 __all__ = ["app", "main"]
@@ -55,6 +56,7 @@ def _root(
 app.command("budget")(_budget.budget_command)
 app.command("fly")(_fly.fly_command)
 app.command("size")(_size.size_command)
+app.command("split")(_split.split_command)
 app.command("pick")(_pick.pick_command)
 app.command("check")(_check.check_command)
 app.command("data")(_data.data_command)

@@ -25,6 +25,7 @@ if TYPE_CHECKING:
     from propulsion.mission import Mission
     from propulsion.plausibility import Finding
     from propulsion.sizing import SizingResult
+    from propulsion.stage_split import SplitResult
     from propulsion.vehicle import DragCurve, Motor
 
 __all__ = [
@@ -37,6 +38,7 @@ __all__ = [
     "mission_summary",
     "print_view",
     "sizing_view",
+    "split_view",
     "verdict_text",
 ]
 
@@ -480,5 +482,89 @@ def sizing_view(result: SizingResult, units: DisplayUnits) -> RenderableType:
         parts.append(
             verdict_text(flown.verdict.meets_targets, "Flight: " + flown.verdict.describe(fmt))
         )
+    parts.append(caution_panel())
+    return Group(*parts)
+
+
+def split_view(result: SplitResult, units: DisplayUnits) -> RenderableType:
+    """What `split` shows: the optimal split, the stage counts, the loss-aware optimum."""
+    parts: list[RenderableType] = [mission_summary(result.mission)]
+    mass, speed = units.label("mass"), units.label("speed")
+    names = [stage.name for stage in result.mission.vehicle.stages]
+
+    def dv(values: Iterable[float]) -> list[str]:
+        return [_q(float(v), "speed", units) for v in values]
+
+    def kg(values: Iterable[float]) -> list[str]:
+        return [_q(float(v), "mass", units) for v in values]
+
+    lagrange, direct, loss = result.lagrange, result.direct, result.loss_aware
+    rows: list[tuple[str, str, Sequence[str]]] = [
+        ("Specific impulse (vacuum)", "s", [_num(float(v)) for v in result.specific_impulse]),
+        ("Structural coefficient", "", [_num(float(v), 3) for v in result.structural_coefficient]),
+        ("Δv, current design", speed, dv(result.current_delta_v)),
+        ("Δv, Lagrange optimum", speed, dv(lagrange.delta_v)),
+        ("Δv, direct optimisation", speed, dv(direct.delta_v)),
+        ("Stage mass, Lagrange optimum", mass, kg(lagrange.stage_mass)),
+    ]
+    if loss is not None and loss.found:
+        rows += [
+            ("Δv, loss-aware optimum", speed, dv(loss.delta_v)),
+            ("Stage mass, loss-aware optimum", mass, kg(loss.stage_mass)),
+        ]
+    parts.append(
+        _sheet(
+            f"Splitting {_q(result.required_delta_v, 'speed', units)} {speed} between the stages",
+            names,
+            rows,
+            emphasise=["Δv, Lagrange optimum"],
+        )
+    )
+    summary = Text()
+    summary.append(
+        f"Liftoff mass: current {_q(result.current_liftoff_mass, 'mass', units)} {mass}; "
+        f"Lagrange optimum {_q(lagrange.liftoff_mass, 'mass', units)} {mass}; direct "
+        f"optimisation {_q(direct.liftoff_mass, 'mass', units)} {mass} "
+        f"({'converged' if direct.converged else 'NOT converged: ' + direct.message}); "
+        f"they differ by {abs(lagrange.liftoff_mass / direct.liftoff_mass - 1):.1e} relative."
+    )
+    if loss is not None:
+        if loss.found:
+            share = float(loss.delta_v[0] / loss.delta_v.sum())
+            ideal_share = float(lagrange.delta_v[0] / lagrange.delta_v.sum())
+            summary.append(
+                "\nLoss-aware optimum (flown): liftoff mass "
+                f"{_q(loss.liftoff_mass, 'mass', units)} {mass}, first stage's share "
+                f"{share:.1%} of the delta-v against {ideal_share:.1%} "
+                f"ideally ({loss.flights} flights; {loss.message})."
+            )
+        else:
+            summary.append(f"\nLoss-aware optimum: not found ({loss.message}).")
+    parts.append(summary)
+    counts = _table("Stage counts compared (same payload and requirement)")
+    counts.add_column("Stages", justify="right")
+    counts.add_column(_head("Liftoff mass", "mass", units), justify="right")
+    counts.add_column("Payload fraction", justify="right")
+    counts.add_column(_head("Δv per stage", "speed", units))
+    counts.add_column(_head("Margin at current liftoff mass", "speed", units), justify="right")
+    for solution, margin in zip(result.counts, result.count_margins, strict=True):
+        if solution.feasible:
+            counts.add_row(
+                str(solution.stage_count),
+                _q(solution.liftoff_mass, "mass", units),
+                _num(solution.payload_fraction, 3),
+                ", ".join(dv(solution.delta_v)),
+                _q(margin, "speed", units),
+            )
+        else:
+            counts.add_row(
+                str(solution.stage_count),
+                "—",
+                "—",
+                "cannot reach the requirement",
+                _q(margin, "speed", units),
+            )
+    parts.append(counts)
+    parts.append(Text("Assumptions: " + "; ".join(result.assumptions) + ".", style="dim"))
     parts.append(caution_panel())
     return Group(*parts)
