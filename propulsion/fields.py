@@ -22,13 +22,14 @@ __all__ = ["FieldError", "FieldRef", "get_value", "numeric_fields", "resolve", "
 
 # field name -> dimension, per table kind; "count" is a whole number
 _TABLES: dict[str, dict[str, str]] = {
-    "vehicle": {"payload": "mass", "diameter": "length"},
+    "vehicle": {"payload": "mass", "diameter": "length", "drag_scale": "dimensionless"},
     "launch": {
         "site_altitude": "length",
         "latitude": "angle",
         "azimuth": "angle",
         "rail_length": "length",
         "elevation": "angle",
+        "wind_speed": "speed",
     },
     "margins": {"reserve": "speed", "residual_fraction": "dimensionless"},
     "flight": {
@@ -48,7 +49,13 @@ _TABLES: dict[str, dict[str, str]] = {
         "separation_delay": "time",
         "ignition_delay": "time",
     },
-    "motor": {"count": "count", "propellant_mass": "mass", "case_mass": "mass"},
+    "motor": {
+        "count": "count",
+        "propellant_mass": "mass",
+        "case_mass": "mass",
+        "impulse_scale": "dimensionless",
+        "burn_time_scale": "dimensionless",
+    },
     "engine": {
         "count": "count",
         "thrust_vacuum": "force",
@@ -65,6 +72,20 @@ _TABLES: dict[str, dict[str, str]] = {
             for name, dimension in (*kind.required.items(), *kind.optional.items())
         },
     },
+}
+
+
+# values a field takes when the file does not give it (a cluster of one, no scaling...)
+_DEFAULTS: dict[str | int, float | None] = {
+    "count": 1.0,
+    "impulse_scale": 1.0,
+    "burn_time_scale": 1.0,
+    "drag_scale": 1.0,
+    "wind_speed": 0.0,
+    "residual_fraction": 0.0,
+    "separation_delay": 0.0,
+    "ignition_delay": 0.0,
+    "site_altitude": 0.0,
 }
 
 
@@ -202,7 +223,7 @@ def get_value(document: dict[str, Any], ref: FieldRef) -> float | None:
         return None
     value = node.get(ref.path[-1])
     if value is None:
-        return 1.0 if ref.is_count else None  # a cluster of one unless the file says
+        return _DEFAULTS.get(ref.path[-1], 1.0 if ref.is_count else None)
     if ref.is_count:
         return float(value)
     if isinstance(value, int | float) and not isinstance(value, bool):

@@ -91,6 +91,7 @@ class FlightCore:
     rotation_speed: FloatArray
     cd_scale: FloatArray
     wind_scale: FloatArray
+    wind_offset: FloatArray
     kick_angle: FloatArray
     kick_time: FloatArray
     kick_speed: FloatArray
@@ -219,8 +220,9 @@ def build_core(mission: Mission, stages: int | None = None, n: int = 1) -> Fligh
         rail_length=ones * (launch.rail_length or 0.0),
         elevation=ones * launch.elevation,
         rotation_speed=ones * rotation,
-        cd_scale=ones.copy(),
+        cd_scale=ones * vehicle.drag_scale,
         wind_scale=ones.copy(),
+        wind_offset=ones * launch.wind_offset,
         kick_angle=ones * settings.pitch_kick_angle,
         kick_time=ones
         * (settings.pitch_kick_time if settings.pitch_kick_time is not None else _NEVER),
@@ -319,6 +321,7 @@ class _Model:
         if core.wind_altitude.size:
             wind = np.interp(altitude - core.site_altitude, core.wind_altitude, core.wind_speed)
             horizontal = horizontal + core.wind_scale * wind
+        horizontal = horizontal + core.wind_offset
         # downrange horizontal unit vector is the up vector turned by -90 degrees
         return y[VX] - horizontal * up_y, y[VY] + horizontal * up_x
 
@@ -687,22 +690,30 @@ def _event_functions(batch: _Batch) -> dict[str, tuple[Any, BoolArray, int]]:
     core, phase = batch.core, batch.phase
     last = core.stages - 1
     after_last_ignition = (phase.stage == last) & (phase.phase != WAITING)
+    models: dict[bytes, _Model] = {}
+
+    def model_of(where: IntArray) -> _Model:
+        """The model of some samples, built once per step (bisection calls it often)."""
+        key = where.tobytes()
+        if key not in models:
+            models[key] = _Model(core.take(where), phase.take(where))
+        return models[key]
 
     def rail(t: FloatArray, y: FloatArray, where: IntArray) -> FloatArray:
-        sub = _Model(core.take(where), phase.take(where))
+        sub = model_of(where)
         return sub.rail_distance(t, y) - core.rail_length[where]
 
     def vertical(t: FloatArray, y: FloatArray, where: IntArray) -> FloatArray:
-        sub = _Model(core.take(where), phase.take(where))
+        sub = model_of(where)
         _, _, up_x, up_y = sub.geometry(y)
         return y[VX] * up_x + y[VY] * up_y
 
     def height(t: FloatArray, y: FloatArray, where: IntArray) -> FloatArray:
-        sub = _Model(core.take(where), phase.take(where))
+        sub = model_of(where)
         return sub.geometry(y)[1] - core.site_altitude[where]
 
     def air_speed(t: FloatArray, y: FloatArray, where: IntArray) -> FloatArray:
-        sub = _Model(core.take(where), phase.take(where))
+        sub = model_of(where)
         radius, altitude, up_x, up_y = sub.geometry(y)
         air_x, air_y = sub.air_velocity(y, radius, altitude, up_x, up_y)
         return np.hypot(air_x, air_y) - core.kick_speed[where]

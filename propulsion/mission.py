@@ -61,6 +61,7 @@ class LaunchSite:
     elevation: float = math.pi / 2
     wind_altitude: tuple[float, ...] = ()
     wind_speed: tuple[float, ...] = ()
+    wind_offset: float = 0.0
 
     @property
     def rotation(self) -> bool:
@@ -131,6 +132,24 @@ class Margins:
 
 
 @dataclass(frozen=True)
+class Dispersion:
+    """An uncertain field: its distribution, in the field's SI unit.
+
+    ``normal``: ``mean`` (the nominal value when None) and ``sigma``; ``uniform``:
+    ``low`` and ``high``; ``triangular``: ``low``, ``mode`` and ``high``.
+    """
+
+    field: str
+    distribution: str
+    dimension: str
+    mean: float | None = None
+    sigma: float = 0.0
+    low: float = 0.0
+    high: float = 0.0
+    mode: float = 0.0
+
+
+@dataclass(frozen=True)
 class Mission:
     """A checked mission: vehicle, legs, margins and launch site, all in SI."""
 
@@ -140,6 +159,7 @@ class Mission:
     margins: Margins
     launch: LaunchSite
     flight: FlightSettings = field(default_factory=FlightSettings)
+    dispersions: tuple[Dispersion, ...] = ()
     description: str = ""
     source: str = "<mission>"
     document: dict[str, Any] = field(default_factory=dict, repr=False, compare=False)
@@ -381,7 +401,13 @@ def _kind(value: Any) -> str:
     return f"a {type(value).__name__}"
 
 
-_TOP = {"mission", "launch", "vehicle", "stage", "leg", "margins", "flight"}
+_TOP = {"mission", "launch", "vehicle", "stage", "leg", "margins", "flight", "dispersion"}
+_DISPERSION = {"field", "distribution", "mean", "sigma", "low", "high", "mode"}
+DISTRIBUTIONS = {
+    "normal": ("sigma",),
+    "uniform": ("low", "high"),
+    "triangular": ("low", "mode", "high"),
+}
 _FLIGHT = {
     "earth",
     "stop_at",
@@ -393,8 +419,16 @@ _FLIGHT = {
     "guidance",
 }
 _MISSION = {"name", "description"}
-_LAUNCH = {"site_altitude", "latitude", "azimuth", "rail_length", "elevation", "wind"}
-_VEHICLE = {"payload", "diameter", "drag_curve"}
+_LAUNCH = {
+    "site_altitude",
+    "latitude",
+    "azimuth",
+    "rail_length",
+    "elevation",
+    "wind",
+    "wind_speed",
+}
+_VEHICLE = {"payload", "diameter", "drag_curve", "drag_scale"}
 _STAGE = {
     "name",
     "inert_mass",
@@ -409,7 +443,16 @@ _STAGE = {
     "motor",
     "engine",
 }
-_MOTOR = {"name", "file", "propellant_mass", "case_mass", "propellant", "count"}
+_MOTOR = {
+    "name",
+    "file",
+    "propellant_mass",
+    "case_mass",
+    "propellant",
+    "count",
+    "impulse_scale",
+    "burn_time_scale",
+}
 _ENGINE = {
     "thrust_vacuum",
     "thrust_sea_level",
@@ -497,7 +540,20 @@ class _Builder:
         drag_name = vehicle_table.string("drag_curve", default="") or None
         drag = self._drag_curve(vehicle_table, "drag_curve", drag_name)
         stages = self._stages(top, margins, diameter, drag)
-        vehicle = Vehicle(stages=tuple(stages), payload_mass=float(payload or 0.0), name=name)
+        drag_scale = vehicle_table.quantity(
+            "drag_scale",
+            "dimensionless",
+            default=1.0,
+            low=0.0,
+            high=10.0,
+            expected="a factor from 0 to 10 on every drag coefficient",
+        )
+        vehicle = Vehicle(
+            stages=tuple(stages),
+            payload_mass=float(payload or 0.0),
+            name=name,
+            drag_scale=float(drag_scale if drag_scale is not None else 1.0),
+        )
         legs = self._legs(top, vehicle, launch)
         return Mission(
             name=name,
@@ -506,6 +562,7 @@ class _Builder:
             margins=margins,
             launch=launch,
             flight=flight,
+            dispersions=self._dispersions(top, data),
             description=description,
             source=self.source,
             document=data,
@@ -529,7 +586,9 @@ class _Builder:
             expected="an angle above the horizon, from 0 deg to 90 deg",
         )
         wind_altitude, wind_speed = self._wind(table)
+        wind_offset = table.quantity("wind_speed", "speed", default=0.0, low=-200.0, high=200.0)
         return LaunchSite(
+            wind_offset=float(wind_offset or 0.0),
             wind_altitude=wind_altitude,
             wind_speed=wind_speed,
             altitude=float(altitude or 0.0),
@@ -538,6 +597,79 @@ class _Builder:
             rail_length=rail,
             elevation=float(elevation or math.pi / 2),
         )
+
+    def _dispersions(self, top: _Table, data: dict[str, Any]) -> tuple[Dispersion, ...]:
+        from propulsion import fields
+
+        raw = top.data.get("dispersion", [])
+        if not isinstance(raw, list):
+            raise top.error("dispersion", f"is {_kind(raw)}", "[[dispersion]] tables")
+        out: list[Dispersion] = []
+        for index, entry in enumerate(raw):
+            table = _Table(self, entry, ("dispersion", index), _DISPERSION)
+            name = table.string("field", required=True)
+            try:
+                ref = fields.resolve(data, name)
+            except fields.FieldError as exc:
+                hint = f"; did you mean '{exc.suggestion}'?" if exc.suggestion else ""
+                raise table.error(
+                    "field",
+                    f"{exc.problem}{hint}",
+                    "a field path such as vehicle.payload or stage.booster.inert_mass",
+                ) from exc
+            if ref.is_count:
+                raise table.error("field", "a count cannot be dispersed", "a continuous field")
+            distribution = table.string("distribution", default="normal")
+            if distribution not in DISTRIBUTIONS:
+                close = difflib.get_close_matches(distribution, sorted(DISTRIBUTIONS), n=1)
+                hint = f"; did you mean '{close[0]}'?" if close else ""
+                raise table.error(
+                    "distribution",
+                    f"unknown distribution '{distribution}'{hint}",
+                    "normal, uniform or triangular",
+                )
+            values: dict[str, float] = {}
+            for key in DISTRIBUTIONS[distribution]:
+                number = table.quantity(key, ref.dimension, required=True)
+                values[key] = float(number if number is not None else 0.0)
+            for key in ("mean", "sigma", "low", "high", "mode"):
+                if key not in DISTRIBUTIONS[distribution] and table.has(key):
+                    if key == "mean" and distribution == "normal":
+                        continue
+                    raise table.error(
+                        key,
+                        f"does not belong to a {distribution} distribution",
+                        "fields: " + ", ".join(DISTRIBUTIONS[distribution]),
+                    )
+            mean = table.quantity("mean", ref.dimension) if distribution == "normal" else None
+            if distribution == "normal" and values["sigma"] < 0:
+                raise table.error(
+                    "sigma",
+                    "a standard deviation cannot be negative",
+                    "a standard deviation of zero or more",
+                )
+            if distribution in ("uniform", "triangular") and values["low"] >= values["high"]:
+                raise table.error(
+                    "low", "the lower bound is not below the upper bound", "low < high"
+                )
+            if (
+                distribution == "triangular"
+                and not values["low"] <= values["mode"] <= values["high"]
+            ):
+                raise table.error("mode", "the mode lies outside low..high", "low <= mode <= high")
+            out.append(
+                Dispersion(
+                    field=name,
+                    distribution=distribution,
+                    dimension=ref.dimension,
+                    mean=mean,
+                    sigma=values.get("sigma", 0.0),
+                    low=values.get("low", 0.0),
+                    high=values.get("high", 0.0),
+                    mode=values.get("mode", 0.0),
+                )
+            )
+        return tuple(out)
 
     def _wind(self, table: _Table) -> tuple[tuple[float, ...], tuple[float, ...]]:
         if not table.has("wind"):
@@ -882,6 +1014,37 @@ class _Builder:
             raise
         except MissionFileNotFoundError as exc:
             raise table.error("name", str(exc), "an existing motor") from exc
+        impulse_scale = table.quantity(
+            "impulse_scale",
+            "dimensionless",
+            low=0.0,
+            low_inclusive=False,
+            high=10.0,
+            expected="a factor above 0 on the total impulse",
+        )
+        time_scale = table.quantity(
+            "burn_time_scale",
+            "dimensionless",
+            low=0.0,
+            low_inclusive=False,
+            high=10.0,
+            expected="a factor above 0 on the burn time",
+        )
+        if impulse_scale is not None or time_scale is not None:
+            # the curve stretched in time and scaled in thrust: total impulse times the
+            # impulse scale, burn time times the time scale, same propellant
+            s_i = 1.0 if impulse_scale is None else impulse_scale
+            s_t = 1.0 if time_scale is None else time_scale
+            motor = Motor(
+                name=motor.name,
+                time=motor.time * s_t,
+                thrust=motor.thrust * (s_i / s_t),
+                propellant_mass=motor.propellant_mass,
+                case_mass=motor.case_mass,
+                propellant_family=motor.propellant_family,
+                diameter=motor.diameter,
+                source=motor.source,
+            )
         if motor.propellant_family is not None:
             families = catalog.propellant_families()
             if motor.propellant_family not in families:

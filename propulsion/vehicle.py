@@ -245,6 +245,7 @@ class Vehicle:
     stages: tuple[Stage, ...]
     payload_mass: float
     name: str = ""
+    drag_scale: float = 1.0
     notes: dict[str, str] = field(default_factory=dict)
 
     def stage_index(self, name: str) -> int:

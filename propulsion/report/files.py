@@ -8,7 +8,7 @@ from pathlib import Path
 
 from propulsion.errors import OutputExistsError, PropulsionError
 
-__all__ = ["write_atomic"]
+__all__ = ["OutputError", "StreamedCsv", "write_atomic"]
 
 
 class OutputError(PropulsionError, OSError):
@@ -49,3 +49,44 @@ def write_atomic(path: str | Path, content: str | bytes, force: bool = False) ->
         Path(temporary).unlink(missing_ok=True)
         raise
     return target
+
+
+class StreamedCsv:
+    """A CSV file written row block by row block, in sample order, and renamed into place
+    only when complete (an interrupted study leaves no partial file behind).
+
+    Blocks may arrive out of order (from parallel workers); each is held until the blocks
+    before it have been written, so at most a few blocks wait in memory.
+    """
+
+    def __init__(self, path: str | Path, header: list[str], force: bool = False) -> None:
+        self.target = Path(path)
+        if self.target.exists() and not force:
+            raise OutputExistsError(self.target)
+        folder = self.target.parent if str(self.target.parent) else Path(".")
+        if not folder.is_dir():
+            raise OutputError(str(self.target), f"the folder {folder} does not exist")
+        handle, self.temporary = tempfile.mkstemp(prefix=f".{self.target.name}.", dir=folder)
+        self.stream = os.fdopen(handle, "w", encoding="utf-8", newline="")
+        self.stream.write(",".join(header) + "\n")
+        self.next_start = 0
+        self.waiting: dict[int, tuple[int, str]] = {}
+
+    def add(self, start: int, stop: int, text: str) -> None:
+        """Queue the rows of samples start..stop-1 (``text`` holds whole lines)."""
+        self.waiting[start] = (stop, text)
+        while self.next_start in self.waiting:
+            stop, block = self.waiting.pop(self.next_start)
+            self.stream.write(block)
+            self.next_start = stop
+
+    def close(self) -> Path:
+        """Finish the file and move it into place."""
+        self.stream.close()
+        os.replace(self.temporary, self.target)
+        return self.target
+
+    def abandon(self) -> None:
+        """Drop the partial file."""
+        self.stream.close()
+        Path(self.temporary).unlink(missing_ok=True)

@@ -26,6 +26,7 @@ if TYPE_CHECKING:
     from propulsion.plausibility import Finding
     from propulsion.sizing import SizingResult
     from propulsion.stage_split import SplitResult
+    from propulsion.studies.scatter import ScatterResult
     from propulsion.vehicle import DragCurve, Motor
 
 __all__ = [
@@ -37,6 +38,7 @@ __all__ = [
     "flight_view",
     "mission_summary",
     "print_view",
+    "scatter_view",
     "sizing_view",
     "split_view",
     "verdict_text",
@@ -566,5 +568,79 @@ def split_view(result: SplitResult, units: DisplayUnits) -> RenderableType:
             )
     parts.append(counts)
     parts.append(Text("Assumptions: " + "; ".join(result.assumptions) + ".", style="dim"))
+    parts.append(caution_panel())
+    return Group(*parts)
+
+
+_METRIC_DIMENSIONS = {
+    "apogee_m": ("Apogee", "length"),
+    "max_mach": ("Max Mach", None),
+    "max_dynamic_pressure_pa": ("Max dynamic pressure", "pressure"),
+    "rail_exit_speed_m_s": ("Rail exit speed", "speed"),
+    "margin": ("Margin (target terms)", None),
+    "downrange_m": ("Downrange at apogee", "length"),
+}
+
+
+def scatter_view(result: ScatterResult, units: DisplayUnits) -> RenderableType:
+    """What `scatter` shows: percentiles, probability of success, drivers, caution."""
+    parts: list[RenderableType] = [mission_summary(result.mission)]
+    table = _table(
+        f"Dispersion of {result.valid:,} flown samples "
+        f"({result.samples:,} drawn, seed {result.seed})"
+    )
+    table.add_column("Output")
+    table.add_column("Unit", style="dim")
+    for p in (1, 5, 50, 95, 99):
+        table.add_column(f"p{p}", justify="right")
+    target_dimension = "length" if result.target in ("apogee", "circular_orbit") else "speed"
+    if result.target == "circular_orbit":
+        target_dimension = "speed"
+    for metric, (title, dimension) in _METRIC_DIMENSIONS.items():
+        if metric == "margin":
+            dimension = target_dimension if result.target else None
+        values = result.percentiles[metric]
+        if dimension is None:
+            cells = [_num(values[p], 4) for p in (1.0, 5.0, 50.0, 95.0, 99.0)]
+            unit = ""
+        else:
+            cells = [_q(values[p], dimension, units) for p in (1.0, 5.0, 50.0, 95.0, 99.0)]
+            unit = units.label(dimension)
+        table.add_row(title, unit, *cells)
+    parts.append(table)
+    low, high = result.interval
+    text = Text()
+    if math.isfinite(result.probability):
+        text.append(
+            f"Probability of meeting the {result.target} target: {result.probability:.1%} "
+            f"({result.meets:,} of {result.valid:,}; 95 % Wilson interval {low:.1%} to "
+            f"{high:.1%}).",
+            style="bold",
+        )
+    invalid = result.samples - result.valid
+    if invalid:
+        reasons = ", ".join(f"{name} {count}" for name, count in result.invalid_reasons.items())
+        text.append(
+            f"\n{invalid:,} sample(s) gave an impossible vehicle and were not flown ({reasons})."
+        )
+    source = (
+        "all samples"
+        if result.exact
+        else f"a uniform reservoir of {result.reservoir:,} samples (counts exact)"
+    )
+    text.append(
+        f"\nStatistics from {source}; "
+        f"{result.chunks} chunk(s) on {result.workers}, {result.elapsed:.1f} s.",
+        style="dim",
+    )
+    parts.append(text)
+    if result.drivers:
+        drivers = _table("What drives the spread (Spearman rank correlation)")
+        drivers.add_column("Dispersed field", no_wrap=True)
+        drivers.add_column("with", style="dim")
+        drivers.add_column("rho", justify="right")
+        for name, output, rho in result.drivers[:6]:
+            drivers.add_row(name, output, f"{rho:+.3f}")
+        parts.append(drivers)
     parts.append(caution_panel())
     return Group(*parts)

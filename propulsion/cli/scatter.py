@@ -1,0 +1,125 @@
+"""`propulsion scatter`: a dispersion (Monte Carlo) study of the mission's uncertainties."""
+
+from __future__ import annotations
+
+import io
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+import numpy as np
+import typer
+
+from propulsion.cli.common import JSON_OPTION, UNITS_OPTION, UnitSystem, emit_json, guard, stdout
+
+if TYPE_CHECKING:
+    from propulsion.studies.scatter import ChunkResult
+
+
+def scatter_command(
+    mission_file: Path = typer.Argument(
+        ...,
+        help="Mission file (TOML) with [[dispersion]] tables.",
+        show_default=False,
+        metavar="MISSION.toml",
+    ),
+    samples: int = typer.Option(1000, "-n", "--samples-count", min=1, help="Number of samples."),
+    seed: int = typer.Option(1, "--seed", help="Seed: the same seed gives the same numbers."),
+    workers: int | None = typer.Option(
+        None, "--workers", min=1, help="Processes on this machine (default: one per core)."
+    ),
+    cluster: str | None = typer.Option(
+        None,
+        "--cluster",
+        help="A dask.distributed scheduler, tcp://HOST:PORT (or set PROPULSION_DASK_SCHEDULER).",
+    ),
+    samples_file: Path | None = typer.Option(
+        None, "--samples", help="Write every sample's inputs and outputs to this CSV (streamed)."
+    ),
+    force: bool = typer.Option(False, "--force", help="Overwrite output files that exist."),
+    units: UnitSystem = UNITS_OPTION,
+    json_output: bool = JSON_OPTION,
+) -> None:
+    """Fly N sampled vehicles: percentiles, probability of meeting the target, drivers.
+
+    Example: propulsion scatter missions/two_stage_competition.toml -n 10000 --seed 1
+
+    Exit code 0 when the study ran, 2 on bad input (for example no [[dispersion]] tables
+    or a distribution with impossible parameters).
+    """
+    from rich.progress import BarColumn, Progress, TextColumn, TimeRemainingColumn
+
+    from propulsion.mission import load_mission
+    from propulsion.report.files import StreamedCsv
+    from propulsion.studies.scatter import METRICS, scatter
+
+    with guard():
+        mission = load_mission(mission_file)
+        writer = None
+        if samples_file is not None:
+            header = ["sample", "valid"]
+            header += [f"{d.field} [{_si(d.dimension)}]" for d in mission.dispersions]
+            header += [_metric_header(metric) for metric in METRICS] + ["meets_target"]
+            writer = StreamedCsv(samples_file, header, force)
+
+        def stream(chunk: ChunkResult) -> None:
+            if writer is not None:
+                writer.add(chunk.start, chunk.stop, _rows(chunk))
+
+        progress = Progress(
+            TextColumn("Flying samples"),
+            BarColumn(),
+            TextColumn("{task.completed:,.0f}/{task.total:,.0f}"),
+            TimeRemainingColumn(),
+            console=stdout(),
+            disable=json_output,
+            transient=True,
+        )
+        try:
+            with progress:
+                task = progress.add_task("samples", total=samples)
+                result = scatter(
+                    mission,
+                    samples,
+                    seed=seed,
+                    workers=workers,
+                    cluster=cluster,
+                    on_chunk=stream,
+                    progress=lambda done, total: progress.update(task, completed=done),
+                )
+        except BaseException:
+            if writer is not None:
+                writer.abandon()
+            raise
+        if writer is not None:
+            writer.close()
+    if json_output:
+        emit_json(result.to_dict())
+        return
+    from propulsion.report.tables import scatter_view
+
+    stdout().print(scatter_view(result, units.display()))
+
+
+def _si(dimension: str) -> str:
+    from propulsion.units import DIMENSIONS
+
+    unit = DIMENSIONS[dimension]
+    return "" if unit == "dimensionless" else unit.replace("**", "^")
+
+
+def _metric_header(metric: str) -> str:
+    for suffix, unit in (("_m_s", "m/s"), ("_pa", "Pa"), ("_m", "m")):
+        if metric.endswith(suffix):
+            return f"{metric[: -len(suffix)]} [{unit}]"
+    return metric
+
+
+def _rows(chunk: ChunkResult) -> str:
+    buffer = io.StringIO()
+    for j in range(chunk.stop - chunk.start):
+        cells = [str(chunk.start + j), "1" if chunk.valid[j] else "0"]
+        cells += [f"{value:.10g}" for value in chunk.inputs[:, j]]
+        cells += ["" if not np.isfinite(v) else f"{v:.10g}" for v in chunk.outputs[:, j]]
+        cells.append("1" if chunk.meets[j] else "0")
+        buffer.write(",".join(cells) + "\n")
+    return buffer.getvalue()

@@ -1,0 +1,427 @@
+"""Dispersion (Monte Carlo) studies: fly N sampled vehicles and summarise the spread.
+
+Samples are flown in chunks (in this process, in a pool of processes, or on a Dask
+cluster: :mod:`propulsion.studies.executors`). Each chunk returns a few numbers per
+sample; the aggregate keeps exact counts and a reservoir of at most ``RESERVOIR``
+samples chosen by keys drawn from each sample's own stream, so memory stays flat as N
+grows and the result does not depend on how the samples were chunked or distributed.
+For N up to the reservoir size every statistic is exact.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+import numpy.typing as npt
+
+from propulsion import ascent, flight
+from propulsion.mission import Mission, parse_mission
+from propulsion.studies.dispersion import Sampler, draw
+
+if TYPE_CHECKING:
+    import pandas as pd
+
+__all__ = [
+    "METRICS",
+    "PERCENTILES",
+    "ChunkResult",
+    "ScatterResult",
+    "StudySpec",
+    "run_chunk",
+    "scatter",
+    "spearman",
+    "wilson_interval",
+]
+
+FloatArray = npt.NDArray[np.float64]
+RESERVOIR = 100_000
+PERCENTILES = (1.0, 5.0, 50.0, 95.0, 99.0)
+METRICS = (
+    "apogee_m",
+    "max_mach",
+    "max_dynamic_pressure_pa",
+    "rail_exit_speed_m_s",
+    "margin",
+    "downrange_m",
+)
+
+
+@dataclass(frozen=True)
+class StudySpec:
+    """Everything a worker needs to fly a chunk: plain data, so it pickles anywhere."""
+
+    document: dict[str, Any]
+    source: str
+    base_dir: str | None
+    seed: int
+
+
+@dataclass
+class ChunkResult:
+    """The samples ``start..stop-1``: inputs, outputs and validity per sample."""
+
+    start: int
+    stop: int
+    inputs: FloatArray
+    outputs: FloatArray
+    meets: npt.NDArray[np.bool_]
+    valid: npt.NDArray[np.bool_]
+    keys: FloatArray
+    reasons: list[str]
+
+
+_CACHE: dict[int, Sampler] = {}
+
+
+def _sampler(spec: StudySpec) -> Sampler:
+    key = hash((spec.source, spec.seed, repr(sorted(spec.document.items()))))
+    if key not in _CACHE:
+        base = Path(spec.base_dir) if spec.base_dir else None
+        mission = parse_mission(spec.document, source=spec.source, base_dir=base)
+        _CACHE.clear()
+        _CACHE[key] = Sampler(mission)
+    return _CACHE[key]
+
+
+def run_chunk(spec: StudySpec, start: int, stop: int) -> ChunkResult:
+    """Draw and fly samples ``start..stop-1`` of a study (a pure function of its inputs)."""
+    sampler = _sampler(spec)
+    values, keys = draw(sampler.dispersions, sampler.nominal, spec.seed, start, stop)
+    core, valid, reasons = sampler.batch(values)
+    outputs = np.full((len(METRICS), stop - start), np.nan)
+    meets = np.zeros(stop - start, dtype=bool)
+    if core.n:
+        outcome = flight.simulate(core)
+        rows = np.flatnonzero(valid)
+        measured, met = _measure(sampler.mission, core, outcome)
+        outputs[:, rows] = measured
+        meets[rows] = met
+    return ChunkResult(start, stop, values, outputs, meets, valid, keys, reasons)
+
+
+def _measure(
+    mission: Mission, core: flight.FlightCore, outcome: flight.Outcome
+) -> tuple[FloatArray, npt.NDArray[np.bool_]]:
+    """The study's outputs per sample (rows of METRICS) and whether it meets the target."""
+    target = ascent._Target(mission, core)
+    apogee_t, apogee_y = outcome.events["apogee"]
+    rail_t, rail_y = outcome.events["rail_exit"]
+    model = flight._Model(core, flight._initial(core)[1])
+    described = model.describe(np.nan_to_num(apogee_t), np.nan_to_num(apogee_y))
+    apogee = np.where(np.isfinite(apogee_t), ascent._altitude(core, apogee_y), np.nan)
+    rail = np.where(np.isfinite(rail_t), ascent._ground_speed(core, np.nan_to_num(rail_y)), np.nan)
+    if target.judged:
+        margin = target.metric(core, outcome)
+        meets = margin >= 0
+    else:
+        margin = np.full(core.n, np.nan)
+        meets = np.zeros(core.n, dtype=bool)
+    downrange = np.where(np.isfinite(apogee_t), described["downrange"], np.nan)
+    out = np.vstack(
+        [
+            apogee,
+            outcome.maxima["mach"][1],
+            outcome.maxima["dynamic_pressure"][1],
+            rail,
+            margin,
+            downrange,
+        ]
+    )
+    return out, meets
+
+
+def _ranks(values: FloatArray) -> FloatArray:
+    """Ranks from 1, ties sharing their average rank."""
+    sorter = np.argsort(values, kind="mergesort")
+    inverse = np.empty(values.size, dtype=np.int64)
+    inverse[sorter] = np.arange(values.size)
+    ordered = values[sorter]
+    new = np.r_[True, ordered[1:] != ordered[:-1]]
+    dense = new.cumsum()[inverse]
+    starts = np.r_[np.nonzero(new)[0], values.size]
+    return 0.5 * (starts[dense] + starts[dense - 1] + 1)
+
+
+def spearman(x: FloatArray, y: FloatArray) -> float:
+    """Spearman's rank correlation coefficient: Pearson's correlation of the ranks.
+
+    References
+    ----------
+    .. [1] C. Spearman, "The proof and measurement of association between two things",
+       American Journal of Psychology 15(1), 72-101, 1904.
+    """
+    return float(np.corrcoef(_ranks(x), _ranks(y))[0, 1])
+
+
+def wilson_interval(successes: int, trials: int, confidence: float = 0.95) -> tuple[float, float]:
+    """Wilson score interval for a binomial proportion.
+
+    Parameters
+    ----------
+    successes, trials : int
+        Counts [dimensionless].
+    confidence : float
+        Two-sided confidence level [dimensionless].
+
+    Returns
+    -------
+    (low, high) : tuple of float
+        Bounds of the interval for the probability [dimensionless].
+
+    References
+    ----------
+    .. [1] E. B. Wilson, "Probable inference, the law of succession, and statistical
+       inference", Journal of the American Statistical Association 22(158), 209-212, 1927.
+    """
+    from statistics import NormalDist
+
+    if trials <= 0:
+        return math.nan, math.nan
+    z = NormalDist().inv_cdf(0.5 + confidence / 2)
+    p = successes / trials
+    denominator = 1 + z * z / trials
+    centre = (p + z * z / (2 * trials)) / denominator
+    half = z * math.sqrt(p * (1 - p) / trials + z * z / (4 * trials * trials)) / denominator
+    return max(0.0, centre - half), min(1.0, centre + half)
+
+
+class Aggregate:
+    """Merges chunk results in any order into the same statistics."""
+
+    def __init__(self, inputs: int, reservoir: int = RESERVOIR) -> None:
+        self.capacity = reservoir
+        self.total = 0
+        self.valid = 0
+        self.meets = 0
+        self.invalid_reasons: dict[str, int] = {}
+        self.keys = np.zeros(0)
+        self.index = np.zeros(0, dtype=np.int64)
+        self.inputs = np.zeros((inputs, 0))
+        self.outputs = np.zeros((len(METRICS), 0))
+        self.met = np.zeros(0, dtype=bool)
+
+    def add(self, chunk: ChunkResult) -> None:
+        """Take a chunk's samples into the counts and the reservoir."""
+        self.total += chunk.stop - chunk.start
+        self.valid += int(chunk.valid.sum())
+        self.meets += int((chunk.meets & chunk.valid).sum())
+        for reason in (r for r, ok in zip(chunk.reasons, chunk.valid, strict=True) if not ok):
+            label = reason.split(":")[0] if reason else "flight"
+            self.invalid_reasons[label] = self.invalid_reasons.get(label, 0) + 1
+        rows = np.flatnonzero(chunk.valid)
+        self.keys = np.concatenate([self.keys, chunk.keys[rows]])
+        self.index = np.concatenate([self.index, chunk.start + rows])
+        self.inputs = np.concatenate([self.inputs, chunk.inputs[:, rows]], axis=1)
+        self.outputs = np.concatenate([self.outputs, chunk.outputs[:, rows]], axis=1)
+        self.met = np.concatenate([self.met, chunk.meets[rows]])
+        if self.keys.size > self.capacity:
+            keep = np.argpartition(self.keys, self.capacity - 1)[: self.capacity]
+            self._keep(keep)
+
+    def _keep(self, keep: npt.NDArray[np.int64]) -> None:
+        self.keys, self.index = self.keys[keep], self.index[keep]
+        self.inputs, self.outputs = self.inputs[:, keep], self.outputs[:, keep]
+        self.met = self.met[keep]
+
+    def ordered(self) -> None:
+        """Sort the reservoir by sample index (statistics then never depend on order)."""
+        self._keep(np.argsort(self.index, kind="stable"))
+
+
+@dataclass
+class ScatterResult:
+    """Percentiles, probability of meeting the target, and what drives the spread."""
+
+    mission: Mission
+    samples: int
+    valid: int
+    meets: int
+    invalid_reasons: dict[str, int]
+    probability: float
+    interval: tuple[float, float]
+    percentiles: dict[str, dict[float, float]]
+    drivers: list[tuple[str, str, float]]
+    reservoir: int
+    exact: bool
+    seed: int
+    chunks: int
+    workers: str
+    elapsed: float
+    target: str
+    required: float
+    values: dict[str, FloatArray] = field(repr=False, default_factory=dict)
+
+    def to_frame(self) -> pd.DataFrame:
+        """Percentiles of each output as a DataFrame (rows: outputs, columns: p1 ... p99)."""
+        import pandas as pd
+
+        return pd.DataFrame(
+            {f"p{p:g}": [self.percentiles[m][p] for m in METRICS] for p in PERCENTILES},
+            index=list(METRICS),
+        )
+
+    def to_dict(self) -> dict[str, Any]:
+        """JSON-ready results (SI, unit in the metric names)."""
+        return {
+            "mission": self.mission.name,
+            "samples": self.samples,
+            "valid_samples": self.valid,
+            "invalid_samples": self.samples - self.valid,
+            "invalid_reasons": self.invalid_reasons,
+            "meets_target": self.meets,
+            "probability_of_meeting_target": self.probability,
+            "probability_interval_95": list(self.interval),
+            "percentiles": {
+                metric: {f"p{p:g}": value for p, value in table.items()}
+                for metric, table in self.percentiles.items()
+            },
+            "drivers": [
+                {"field": name, "output": output, "spearman_rho": rho}
+                for name, output, rho in self.drivers
+            ],
+            "statistics_from": "all samples"
+            if self.exact
+            else f"a uniform reservoir of {self.reservoir} samples (counts are exact)",
+            "seed": self.seed,
+            "chunks": self.chunks,
+            "workers": self.workers,
+            "target": self.target,
+            "required": self.required,
+            "elapsed_s": self.elapsed,
+        }
+
+
+def summarise(
+    mission: Mission, aggregate: Aggregate, seed: int, chunks: int, workers: str, elapsed: float
+) -> ScatterResult:
+    """Turn the merged chunks into the study's statistics."""
+    aggregate.ordered()
+    percentiles: dict[str, dict[float, float]] = {}
+    for row, metric in enumerate(METRICS):
+        values = aggregate.outputs[row]
+        values = values[np.isfinite(values)]
+        percentiles[metric] = {
+            p: float(np.percentile(values, p)) if values.size else math.nan for p in PERCENTILES
+        }
+    drivers: list[tuple[str, str, float]] = []
+    output = METRICS.index("margin")
+    y = aggregate.outputs[output]
+    usable = y[np.isfinite(y)]
+    if usable.size < 3 or np.ptp(usable) == 0:  # no target: rank against the apogee
+        output = METRICS.index("apogee_m")
+        y = aggregate.outputs[output]
+    finite = np.isfinite(y)
+    for d, dispersion in enumerate(mission.dispersions):
+        x = aggregate.inputs[d][finite]
+        if x.size > 2 and np.ptp(x) > 0 and np.ptp(y[finite]) > 0:
+            rho = spearman(x, y[finite])
+            drivers.append((dispersion.field, METRICS[output], rho))
+    drivers.sort(key=lambda item: -abs(item[2]))
+    target = ascent._Target(mission, flight.build_core(mission, ascent._flown_stages(mission)))
+    probability = aggregate.meets / aggregate.valid if aggregate.valid else math.nan
+    return ScatterResult(
+        mission=mission,
+        samples=aggregate.total,
+        valid=aggregate.valid,
+        meets=aggregate.meets,
+        invalid_reasons=dict(sorted(aggregate.invalid_reasons.items())),
+        probability=probability,
+        interval=wilson_interval(aggregate.meets, aggregate.valid),
+        percentiles=percentiles,
+        drivers=drivers,
+        reservoir=aggregate.capacity,
+        exact=aggregate.total <= aggregate.capacity,
+        seed=seed,
+        chunks=chunks,
+        workers=workers,
+        elapsed=elapsed,
+        target=target.kind,
+        required=target.required,
+        values={metric: aggregate.outputs[i].copy() for i, metric in enumerate(METRICS)},
+    )
+
+
+def scatter(
+    mission: Mission,
+    samples: int,
+    seed: int = 1,
+    chunk_size: int | None = None,
+    workers: int | None = None,
+    cluster: str | Any | None = None,
+    on_chunk: Callable[[ChunkResult], None] | None = None,
+    progress: Callable[[int, int], None] | None = None,
+) -> ScatterResult:
+    """Fly ``samples`` dispersed vehicles and summarise the outputs.
+
+    Parameters
+    ----------
+    mission : Mission
+        A mission with ``[[dispersion]]`` entries.
+    samples : int
+        Number of samples N.
+    seed : int
+        Seed of the study; sample i draws from ``SeedSequence(seed, spawn_key=(i,))``.
+    chunk_size : int or None
+        Samples per chunk (one batched flight each); by default the samples are shared
+        evenly between the workers, at most 5,000 a chunk.
+    workers : int or None
+        Processes on this machine (None: one per core; 1: this process only).
+    cluster : str, dask Client, or None
+        A dask.distributed scheduler address (``tcp://host:port``) or a Client; the
+        chunks then run there.
+    on_chunk : callable or None
+        Called with every chunk result as it arrives (for streaming per-sample output).
+    progress : callable or None
+        Called with (samples done, samples) as chunks arrive.
+
+    Returns
+    -------
+    ScatterResult
+        Percentiles (1, 5, 50, 95, 99) of the outputs, the probability of meeting the
+        target with its 95 % Wilson interval, and the dispersed inputs ranked by their
+        Spearman rank correlation with the margin.
+    """
+    import time
+
+    from propulsion.studies.executors import run_chunks
+
+    if not mission.dispersions:
+        from propulsion.errors import MissionError
+
+        raise MissionError(
+            mission.source,
+            "dispersion",
+            "the mission states no dispersions",
+            "[[dispersion]] tables, each with a field and a distribution",
+        )
+    started = time.perf_counter()
+    spec = StudySpec(
+        document=mission.document,
+        source=mission.source,
+        base_dir=str(Path(mission.source).parent) if mission.source != "<mission>" else None,
+        seed=seed,
+    )
+    aggregate = Aggregate(len(mission.dispersions))
+    done = 0
+
+    def collect(chunk: ChunkResult) -> None:
+        nonlocal done
+        aggregate.add(chunk)
+        done += chunk.stop - chunk.start
+        if on_chunk is not None:
+            on_chunk(chunk)
+        if progress is not None:
+            progress(done, samples)
+
+    if chunk_size is None:
+        import os
+
+        share = workers if workers is not None else (os.cpu_count() or 1)
+        chunk_size = max(500, min(5000, math.ceil(samples / max(share, 1))))
+    chunks, where = run_chunks(spec, samples, chunk_size, collect, workers=workers, cluster=cluster)
+    return summarise(mission, aggregate, seed, chunks, where, time.perf_counter() - started)
