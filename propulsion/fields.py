@@ -104,7 +104,7 @@ class FieldError(PropulsionError, KeyError):
     def __str__(self) -> str:
         text = f"field '{self.path}': {self.problem}"
         if self.suggestion:
-            text += f"; did you mean '{self.suggestion}'?"
+            return text + f"; did you mean '{self.suggestion}'?"
         return text + "."
 
 

@@ -647,6 +647,7 @@ def pick(
                 stages.append(table)
             document["stage"] = stages
             document["leg"] = [{**copy.deepcopy(leg), "stages": list(names)}]
+            document.pop("dispersion", None)  # uncertainties name the mission's own stages
             candidate = parse_mission(document, source=mission.source, base_dir=base_dir)
             first = candidate.legs[0]
             target = first.fields["altitude"]

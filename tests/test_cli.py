@@ -127,7 +127,13 @@ def test_data_lists_tables() -> None:
     assert "pd-H113" in shown and "lox_kerosene" in shown
 
 
-@pytest.mark.parametrize("command", ["budget", "check", "data", "fly", "size", "pick"])
+COMMANDS = [
+    *("budget", "check", "data", "fly", "size", "pick"),
+    *("split", "compare", "sweep", "scatter"),
+]
+
+
+@pytest.mark.parametrize("command", COMMANDS)
 def test_every_command_has_help_with_an_example(command: str) -> None:
     result = runner.invoke(app, [command, "--help"])
     assert result.exit_code == 0

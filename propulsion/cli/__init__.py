@@ -13,11 +13,14 @@ import typer
 from propulsion import __version__
 from propulsion.cli import budget as _budget
 from propulsion.cli import check as _check
+from propulsion.cli import compare as _compare
 from propulsion.cli import data as _data
 from propulsion.cli import fly as _fly
 from propulsion.cli import pick as _pick
+from propulsion.cli import scatter as _scatter
 from propulsion.cli import size as _size
 from propulsion.cli import split as _split
+from propulsion.cli import sweep as _sweep
 from propulsion.cli.common import state
 
 __all__ = ["app", "main"]
@@ -58,6 +61,9 @@ app.command("fly")(_fly.fly_command)
 app.command("size")(_size.size_command)
 app.command("split")(_split.split_command)
 app.command("pick")(_pick.pick_command)
+app.command("scatter")(_scatter.scatter_command)
+app.command("compare")(_compare.compare_command)
+app.command("sweep")(_sweep.sweep_command)
 app.command("check")(_check.check_command)
 app.command("data")(_data.data_command)
 

@@ -23,6 +23,13 @@ class OutputError(PropulsionError, OSError):
         return f"cannot write {self.path}: {self.reason}."
 
 
+def _file_mode() -> int:
+    """The mode a new file gets under the process's umask (mkstemp would give 0600)."""
+    mask = os.umask(0)
+    os.umask(mask)
+    return 0o666 & ~mask
+
+
 def write_atomic(path: str | Path, content: str | bytes, force: bool = False) -> Path:
     """Write ``content`` to ``path`` through a temporary file and a rename.
 
@@ -44,6 +51,7 @@ def write_atomic(path: str | Path, content: str | bytes, force: bool = False) ->
     try:
         with os.fdopen(handle, "wb") as stream:
             stream.write(data)
+        os.chmod(temporary, _file_mode())
         os.replace(temporary, target)
     except BaseException:
         Path(temporary).unlink(missing_ok=True)
@@ -83,6 +91,7 @@ class StreamedCsv:
     def close(self) -> Path:
         """Finish the file and move it into place."""
         self.stream.close()
+        os.chmod(self.temporary, _file_mode())
         os.replace(self.temporary, self.target)
         return self.target
 

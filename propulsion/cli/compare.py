@@ -1,0 +1,223 @@
+"""`propulsion compare`: budget and fly several mission files and show them side by side."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+import typer
+
+from propulsion.cli.common import (
+    JSON_OPTION,
+    UNITS_OPTION,
+    UnitSystem,
+    emit_json,
+    guard,
+    stderr,
+    stdout,
+)
+
+if TYPE_CHECKING:
+    from rich.console import RenderableType
+
+    from propulsion.studies.compare import CompareResult
+    from propulsion.units import DisplayUnits
+
+__all__ = ["compare_command", "compare_view"]
+
+
+def compare_view(
+    result: CompareResult,
+    units: DisplayUnits,
+    columns: list[str] | None = None,
+    width: int = 80,
+) -> RenderableType:
+    """What `compare` shows: the options table, notes, the overall verdict and the caution.
+
+    Parameters
+    ----------
+    result : CompareResult
+        What :func:`propulsion.studies.compare.compare` returned (SI units).
+    units : DisplayUnits
+        Display units of the table.
+    columns : list of str or None
+        Full column names to show; None shows the default columns that hold a value,
+        as many as fit ``width``.
+    width : int
+        Terminal width [characters].
+
+    Returns
+    -------
+    RenderableType
+        A rich renderable.
+
+    References
+    ----------
+    .. [1] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed., 2013,
+       sections 11.2 to 11.5 (the quantities compared: ideal delta-v and its losses).
+    """
+    from rich.console import Group
+    from rich.text import Text
+
+    from propulsion.report.sheet import fit_columns, sheet_view, split_columns
+    from propulsion.report.tables import caution_panel, verdict_text
+    from propulsion.studies.compare import COLUMNS, resolve_columns
+
+    frame = result.to_frame()
+    hidden: list[str] = []
+    if columns is None:
+        wanted = [
+            name
+            for name in resolve_columns(None, list(frame.columns))
+            if name == "name" or not frame[name].isna().all()
+        ]
+        fitted = fit_columns(frame, {name: COLUMNS[name] for name in wanted}, units, width)
+        hidden = [COLUMNS[name].title for name in wanted if name not in fitted]
+        blocks = [[name for name in COLUMNS if name in fitted]]  # in the table's order
+    else:
+        # chosen columns are all shown: in blocks that fit, each starting with the name
+        blocks = split_columns(frame, {name: COLUMNS[name] for name in columns}, units, width)
+    count = len(result.rows)
+    title = f"{count} option{'s' if count != 1 else ''} compared"
+    if result.sort is not None:
+        name, descending = result.sort
+        order = "highest first" if descending else "lowest first"
+        title += f", sorted by {COLUMNS[name].title} ({order})"
+    parts: list[RenderableType] = []
+    for index, block in enumerate(blocks):
+        heading = title if index == 0 else f"{title} (continued, {index + 1}/{len(blocks)})"
+        parts.append(sheet_view(frame, {name: COLUMNS[name] for name in block}, heading, units))
+    shown = {name for block in blocks for name in block}
+    notes = Text(style="dim")
+    notes.append("Files: " + "; ".join(f"{row.name} = {row.source}" for row in result.rows))
+    notes.append(
+        "\nIdeal Δv is the budget's (every stage burnt completely); the losses, apogee, "
+        "orbit, margins and 'Flight meets' come from the flown ascent of the first leg, as "
+        "`propulsion fly` computes them."
+    )
+    if "margin" in shown:
+        notes.append(" Target margin: in the target's own unit (m/s for an orbit).")
+    if not result.margin_computed:
+        notes.append(
+            "\n--no-margin: the delta-v margins were not computed; the verdicts judge the "
+            "targets alone."
+        )
+    if hidden:
+        notes.append(
+            f"\nNot shown at this width: {', '.join(hidden)} (use --columns, a wider "
+            "terminal, --json or --export)."
+        )
+    parts.append(notes)
+    short = [row.name for row in result.rows if row.meets_targets is False]
+    if short:
+        line = verdict_text(
+            False,
+            f"{len(short)} of {count} option(s) fall short of their flight target: "
+            + ", ".join(short)
+            + ".",
+        )
+    else:
+        line = verdict_text(True, f"Every option ({count}) meets its flight target.")
+    parts += [Text(), line, caution_panel()]
+    return Group(*parts)
+
+
+def compare_command(
+    mission_files: list[Path] = typer.Argument(
+        ...,
+        help="Mission files (TOML), one per option.",
+        show_default=False,
+        metavar="MISSION.toml",
+    ),
+    sort: str | None = typer.Option(
+        None,
+        "--sort",
+        "-s",
+        help="Sort by this column (apogee, liftoff_mass, drag_loss, margin_delta_v, ...); "
+        "best first by default.",
+        show_default=False,
+    ),
+    descending: bool | None = typer.Option(
+        None,
+        "--descending/--ascending",
+        help="Override the sort direction (default: best first for the column).",
+        show_default=False,
+    ),
+    columns: str | None = typer.Option(
+        None,
+        "--columns",
+        "-c",
+        help="Columns to show, separated by commas, or 'all' (default: the main ones that fit).",
+        show_default=False,
+    ),
+    export: Path | None = typer.Option(
+        None,
+        "--export",
+        help="Also write the table to a .csv, .xlsx or .md file (in --units, every column).",
+        show_default=False,
+    ),
+    force: bool = typer.Option(False, "--force", help="Overwrite the --export file if it exists."),
+    margin: bool = typer.Option(
+        True,
+        "--margin/--no-margin",
+        help="Find each delta-v margin by root finding (more flights).",
+    ),
+    units: UnitSystem = UNITS_OPTION,
+    json_output: bool = JSON_OPTION,
+) -> None:
+    """Compare options: budget and fly each mission file, and show them side by side.
+
+    One row per file: liftoff mass, ideal delta-v, the losses of the flight, apogee or
+    orbit, margins and verdicts. The best value in each column is marked with ★.
+
+    Example: propulsion compare missions/hobby_single_stage.toml missions/two_stage_competition.toml --sort apogee
+
+    Exit code 0 when every option meets its flight target, 1 when one falls short, 2 on bad
+    input (the message names the file).
+    """  # noqa: E501 (the example is one command line)
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn
+
+    from propulsion.mission import load_mission
+    from propulsion.report.export_tables import check_export_path, export_table
+    from propulsion.studies.compare import COLUMNS, compare, resolve_column, resolve_columns
+
+    with guard():
+        # everything that can be wrong with the input is found before anything flies
+        sort_column = resolve_column(sort) if sort is not None else None
+        shown = resolve_columns(columns) if columns is not None else None
+        if export is not None:
+            check_export_path(export, force)
+        missions = [load_mission(path) for path in mission_files]
+        with Progress(
+            TextColumn("Flying {task.description}"),
+            BarColumn(),
+            MofNCompleteColumn(),
+            console=stderr(),
+            transient=True,
+            disable=json_output,
+        ) as bar:
+            task = bar.add_task("", total=len(missions))
+
+            def advance(done: int, total: int, current: str) -> None:
+                bar.update(task, completed=done, total=total, description=current)
+
+            result = compare(missions, margin=margin, progress=advance)
+        if sort_column is not None:
+            result = result.sorted_by(sort_column, descending)
+        if export is not None:
+            dimensions = {name: spec.dimension for name, spec in COLUMNS.items()}
+            export_table(
+                result.to_frame(),
+                export,
+                force=force,
+                units=units.display(),
+                dimensions=dimensions,
+                sheet_name="compare",
+            )
+    if json_output:
+        emit_json(result.to_dict())
+    else:
+        console = stdout()
+        console.print(compare_view(result, units.display(), shown, console.width))
+    if not result.all_meet_targets:
+        raise typer.Exit(1)

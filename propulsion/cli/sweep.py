@@ -1,0 +1,151 @@
+"""`propulsion sweep`: a grid over mission fields, each point budgeted and flown."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+import typer
+
+from propulsion.cli.common import (
+    JSON_OPTION,
+    UNITS_OPTION,
+    UnitSystem,
+    emit_json,
+    guard,
+    stderr,
+    stdout,
+)
+
+if TYPE_CHECKING:
+    from rich.console import RenderableType
+
+    from propulsion.studies.sweep import SweepResult
+    from propulsion.units import DisplayUnits
+
+_OUTPUTS = (
+    "apogee_m",
+    "perigee_m",
+    "margin",
+    "max_mach",
+    "max_dynamic_pressure_pa",
+    "rail_exit_speed_m_s",
+    "liftoff_mass_kg",
+    "drag_loss_m_s",
+    "meets_targets",
+)
+
+
+def sweep_view(
+    result: SweepResult, units: DisplayUnits, sort: str | None, width: int = 80
+) -> RenderableType:
+    """The grid as a spreadsheet-like table, best values marked, then notes and caution."""
+    from rich.console import Group
+    from rich.text import Text
+
+    from propulsion.report.sheet import fit_columns, sheet_view
+    from propulsion.report.tables import caution_panel, mission_summary
+    from propulsion.studies.compare import COLUMNS
+
+    frame = result.to_frame()
+    specs: dict[str, tuple[str, str | None, str | None]] = {}
+    for axis in result.axes:
+        dimension = None if axis.ref.is_count else axis.ref.dimension
+        specs[axis.column] = (axis.ref.name, dimension, None)
+    for name in _OUTPUTS:
+        if name in frame.columns and not frame[name].isna().all():
+            specs[name] = tuple(COLUMNS[name])  # type: ignore[assignment]
+    parts: list[RenderableType] = [mission_summary(result.mission)]
+    if len(frame):
+        shown = fit_columns(frame, specs, units, width, keep=len(result.axes))
+        title = f"Sweep of {', '.join(a.ref.name for a in result.axes)}: {len(frame)} points"
+        if sort:
+            title += f", sorted by {sort}"
+        parts.append(sheet_view(frame, {name: specs[name] for name in shown}, title, units))
+        hidden = [specs[name][0] for name in specs if name not in shown]
+        if hidden:
+            parts.append(
+                Text(
+                    f"Not shown at this width: {', '.join(hidden)} (--json or --export).",
+                    style="dim",
+                )
+            )
+    for point, reason in result.skipped:
+        parts.append(Text(f"Skipped {point}: {reason}", style="yellow"))
+    parts.append(
+        Text(
+            "Each point is budgeted and flown as `propulsion fly --no-margin` does; the "
+            "margin is in the target's own unit.",
+            style="dim",
+        )
+    )
+    parts.append(caution_panel())
+    return Group(*parts)
+
+
+def sweep_command(
+    mission_file: Path = typer.Argument(
+        ..., help="Mission file (TOML).", show_default=False, metavar="MISSION.toml"
+    ),
+    settings: list[str] = typer.Option(
+        ...,
+        "--set",
+        help="FIELD=START..STOP:N, e.g. 'stage.booster.inert_mass=0.5 kg..1 kg:6'; repeat "
+        "for a grid.",
+        show_default=False,
+    ),
+    sort: str | None = typer.Option(None, "--sort", "-s", help="Sort by this column."),
+    export: Path | None = typer.Option(
+        None, "--export", help="Also write the table to a .csv, .xlsx or .md file."
+    ),
+    force: bool = typer.Option(False, "--force", help="Overwrite the --export file if it exists."),
+    units: UnitSystem = UNITS_OPTION,
+    json_output: bool = JSON_OPTION,
+) -> None:
+    """Sweep one or more fields over a grid: every point budgeted and flown.
+
+    Example: propulsion sweep missions/two_stage_competition.toml --set "vehicle.payload=0.1 kg..0.5 kg:5"
+
+    Exit code 0 when the sweep ran, 2 on bad input (a field that does not exist gets a
+    suggestion).
+    """  # noqa: E501 (the example is one command line)
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn
+
+    from propulsion.mission import load_mission
+    from propulsion.report.export_tables import check_export_path, export_table
+    from propulsion.studies.compare import resolve_column
+    from propulsion.studies.sweep import parse_axis, sweep
+
+    with guard():
+        mission = load_mission(mission_file)
+        axes = [parse_axis(mission.document, text) for text in settings]
+        sort_column = resolve_column(sort) if sort is not None else None
+        if export is not None:
+            check_export_path(export, force)
+        with Progress(
+            TextColumn("Sweeping"),
+            BarColumn(),
+            MofNCompleteColumn(),
+            console=stderr(),
+            transient=True,
+            disable=json_output,
+        ) as bar:
+            task = bar.add_task("", total=1)
+            result = sweep(
+                mission,
+                axes,
+                progress=lambda done, total: bar.update(task, completed=done, total=total),
+            )
+        if sort_column is not None and sort_column in result.frame.columns:
+            from propulsion.studies.compare import COLUMNS
+
+            better = COLUMNS[sort_column].better
+            result.frame = result.frame.sort_values(
+                sort_column, ascending=better != "max", kind="stable", na_position="last"
+            ).reset_index(drop=True)
+        if export is not None:
+            export_table(result.frame, export, force=force, units=units.display())
+    if json_output:
+        emit_json(result.to_dict())
+        return
+    stdout().print(sweep_view(result, units.display(), sort_column, width=stdout().width))
