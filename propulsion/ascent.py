@@ -241,7 +241,7 @@ class FlightVerdict:
         )
         reached = self.margin >= 0
         if self.target == "circular_orbit":
-            left = format_value(self.margin_delta_v, "speed")
+            left = format_value(self.margin, "speed")  # delta-v left after the later legs
             head = (
                 f"Reaches the orbit with {left} of delta-v left after the later legs"
                 if reached

@@ -17,6 +17,7 @@ __all__ = [
     "MissionFileNotFoundError",
     "OutputExistsError",
     "PropulsionError",
+    "RequestError",
 ]
 
 
@@ -112,3 +113,30 @@ class OutputExistsError(PropulsionError, FileExistsError):
 
     def __str__(self) -> str:
         return f"{self.path} exists already; give --force to overwrite it."
+
+
+class RequestError(PropulsionError, ValueError):
+    """A command's request that cannot be carried out (a sizing, split, pick or comparison).
+
+    Parameters
+    ----------
+    problem : str
+        What is wrong, in plain words.
+    expected : str
+        What would have been accepted.
+    """
+
+    def __init__(self, problem: str, expected: str = "") -> None:
+        self.problem = problem
+        self.expected = expected
+        super().__init__(problem, expected)
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        return (type(self), (self.problem, self.expected))
+
+    def __str__(self) -> str:
+        problem = self.problem.rstrip(".")
+        message = problem + ("" if problem.endswith("?") else ".")
+        if self.expected:
+            message += f" Expected {self.expected.rstrip('.')}."
+        return message

@@ -14,6 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
+from propulsion._checks import as_finite, as_non_negative, as_positive, scalar_or_array
 from propulsion.constants import (
     EARTH_EQUATORIAL_RADIUS,
     EARTH_MU,
@@ -22,33 +23,6 @@ from propulsion.constants import (
 )
 
 ArrayLike = float | npt.NDArray[np.float64]
-
-
-def _array(name: str, value: ArrayLike) -> npt.NDArray[np.float64]:
-    arr = np.asarray(value, dtype=np.float64)
-    if not np.all(np.isfinite(arr)):
-        raise ValueError(f"{name} must be finite, got {value!r}")
-    return arr
-
-
-def _positive(name: str, value: ArrayLike) -> npt.NDArray[np.float64]:
-    arr = _array(name, value)
-    if np.any(arr <= 0.0):
-        raise ValueError(f"{name} must be greater than zero, got {value!r}")
-    return arr
-
-
-def _non_negative(name: str, value: ArrayLike) -> npt.NDArray[np.float64]:
-    arr = _array(name, value)
-    if np.any(arr < 0.0):
-        raise ValueError(f"{name} must not be negative, got {value!r}")
-    return arr
-
-
-def _result(arr: npt.NDArray[np.float64]) -> ArrayLike:
-    if arr.ndim == 0:
-        return float(arr)
-    return arr
 
 
 def _vis_viva(
@@ -95,9 +69,9 @@ def circular_speed(radius: ArrayLike, mu: ArrayLike = EARTH_MU) -> ArrayLike:
     .. [2] D. A. Vallado, Fundamentals of Astrodynamics and Applications, 4th ed.,
        Microcosm Press, 2013, chapter 1.
     """
-    r = _positive("radius", radius)
-    m = _positive("mu", mu)
-    return _result(np.sqrt(m / r))
+    r = as_positive("radius", radius)
+    m = as_positive("mu", mu)
+    return scalar_or_array(np.sqrt(m / r))
 
 
 def vis_viva_speed(
@@ -138,12 +112,12 @@ def vis_viva_speed(
     .. [2] D. A. Vallado, Fundamentals of Astrodynamics and Applications, 4th ed.,
        Microcosm Press, 2013, chapter 1 (vis-viva equation).
     """
-    r = _positive("radius", radius)
-    a = _array("semi_major_axis", semi_major_axis)
+    r = as_positive("radius", radius)
+    a = as_finite("semi_major_axis", semi_major_axis)
     if np.any(a == 0.0):
         raise ValueError("semi_major_axis must not be zero")
-    m = _positive("mu", mu)
-    return _result(_vis_viva(r, a, m))
+    m = as_positive("mu", mu)
+    return scalar_or_array(_vis_viva(r, a, m))
 
 
 def escape_speed(radius: ArrayLike, mu: ArrayLike = EARTH_MU) -> ArrayLike:
@@ -176,9 +150,9 @@ def escape_speed(radius: ArrayLike, mu: ArrayLike = EARTH_MU) -> ArrayLike:
     .. [1] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed.,
        Butterworth-Heinemann, 2013, chapter 2 (parabolic trajectories).
     """
-    r = _positive("radius", radius)
-    m = _positive("mu", mu)
-    return _result(np.sqrt(2.0 * m / r))
+    r = as_positive("radius", radius)
+    m = as_positive("mu", mu)
+    return scalar_or_array(np.sqrt(2.0 * m / r))
 
 
 @dataclass(frozen=True)
@@ -245,12 +219,12 @@ def transfer_burn(
     .. [2] D. A. Vallado, Fundamentals of Astrodynamics and Applications, 4th ed.,
        Microcosm Press, 2013, chapter 6 (Orbital maneuvering), Hohmann transfer.
     """
-    r1 = _positive("radius_circular", radius_circular)
-    r2 = _positive("radius_opposite_apsis", radius_opposite_apsis)
-    m = _positive("mu", mu)
+    r1 = as_positive("radius_circular", radius_circular)
+    r2 = as_positive("radius_opposite_apsis", radius_opposite_apsis)
+    m = as_positive("mu", mu)
     v_circle = np.sqrt(m / r1)
     v_ellipse = _vis_viva(r1, 0.5 * (r1 + r2), m)
-    return _result(np.abs(v_ellipse - v_circle))
+    return scalar_or_array(np.abs(v_ellipse - v_circle))
 
 
 def circularisation_burn(
@@ -291,12 +265,12 @@ def circularisation_burn(
     .. [2] D. A. Vallado, Fundamentals of Astrodynamics and Applications, 4th ed.,
        Microcosm Press, 2013, chapter 6 (Orbital maneuvering), Hohmann transfer.
     """
-    r1 = _positive("radius_apsis", radius_apsis)
-    r2 = _positive("radius_opposite_apsis", radius_opposite_apsis)
-    m = _positive("mu", mu)
+    r1 = as_positive("radius_apsis", radius_apsis)
+    r2 = as_positive("radius_opposite_apsis", radius_opposite_apsis)
+    m = as_positive("mu", mu)
     v_circle = np.sqrt(m / r1)
     v_ellipse = _vis_viva(r1, 0.5 * (r1 + r2), m)
-    return _result(np.abs(v_circle - v_ellipse))
+    return scalar_or_array(np.abs(v_circle - v_ellipse))
 
 
 def hohmann_transfer(
@@ -339,18 +313,18 @@ def hohmann_transfer(
     .. [2] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed.,
        Butterworth-Heinemann, 2013, chapter 6 (Hohmann transfer).
     """
-    r1 = _positive("radius_initial", radius_initial)
-    r2 = _positive("radius_final", radius_final)
-    m = _positive("mu", mu)
+    r1 = as_positive("radius_initial", radius_initial)
+    r2 = as_positive("radius_final", radius_final)
+    m = as_positive("mu", mu)
     a_t = 0.5 * (r1 + r2)
     first = np.abs(_vis_viva(r1, a_t, m) - np.sqrt(m / r1))
     second = np.abs(np.sqrt(m / r2) - _vis_viva(r2, a_t, m))
     time = np.pi * np.sqrt(a_t**3 / m)
     return HohmannTransfer(
-        first_burn=_result(first),
-        second_burn=_result(second),
-        total=_result(first + second),
-        transfer_time=_result(np.asarray(time, dtype=np.float64)),
+        first_burn=scalar_or_array(first),
+        second_burn=scalar_or_array(second),
+        total=scalar_or_array(first + second),
+        transfer_time=scalar_or_array(np.asarray(time, dtype=np.float64)),
     )
 
 
@@ -386,9 +360,9 @@ def plane_change_delta_v(speed: ArrayLike, angle: ArrayLike) -> ArrayLike:
     .. [2] D. A. Vallado, Fundamentals of Astrodynamics and Applications, 4th ed.,
        Microcosm Press, 2013, chapter 6 (Orbital maneuvering), non-coplanar transfers.
     """
-    v = _non_negative("speed", speed)
-    theta = _array("angle", angle)
-    return _result(2.0 * v * np.abs(np.sin(0.5 * theta)))
+    v = as_non_negative("speed", speed)
+    theta = as_finite("angle", angle)
+    return scalar_or_array(2.0 * v * np.abs(np.sin(0.5 * theta)))
 
 
 def vertical_speed_for_apogee(
@@ -431,15 +405,15 @@ def vertical_speed_for_apogee(
     .. [1] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed.,
        Butterworth-Heinemann, 2013, chapter 2 (energy law).
     """
-    r0 = _positive("radius_start", radius_start)
-    ra = _positive("radius_apogee", radius_apogee)
-    m = _positive("mu", mu)
+    r0 = as_positive("radius_start", radius_start)
+    ra = as_positive("radius_apogee", radius_apogee)
+    m = as_positive("mu", mu)
     if np.any(ra < r0):
         raise ValueError(
             f"radius_apogee ({radius_apogee!r} m) must not be below radius_start "
             f"({radius_start!r} m)"
         )
-    return _result(np.sqrt(2.0 * m * (1.0 / r0 - 1.0 / ra)))
+    return scalar_or_array(np.sqrt(2.0 * m * (1.0 / r0 - 1.0 / ra)))
 
 
 def vertical_speed_for_apogee_uniform(
@@ -474,9 +448,9 @@ def vertical_speed_for_apogee_uniform(
     .. [1] G. P. Sutton and O. Biblarz, Rocket Propulsion Elements, 9th ed., Wiley, 2017,
        chapter 4 (vertical flight in a uniform gravity field).
     """
-    h = _non_negative("height", height)
-    g = _positive("gravity", gravity)
-    return _result(np.sqrt(2.0 * g * h))
+    h = as_non_negative("height", height)
+    g = as_positive("gravity", gravity)
+    return scalar_or_array(np.sqrt(2.0 * g * h))
 
 
 def earth_rotation_speed(
@@ -525,8 +499,8 @@ def earth_rotation_speed(
     .. [2] NIMA TR8350.2, Department of Defense World Geodetic System 1984, 3rd ed., 2000
        (values of R and omega).
     """
-    phi = _array("latitude", latitude)
-    beta = _array("azimuth", azimuth)
-    r = _positive("radius", radius)
-    w = _array("rate", rate)
-    return _result(w * r * np.cos(phi) * np.sin(beta))
+    phi = as_finite("latitude", latitude)
+    beta = as_finite("azimuth", azimuth)
+    r = as_positive("radius", radius)
+    w = as_finite("rate", rate)
+    return scalar_or_array(w * r * np.cos(phi) * np.sin(beta))

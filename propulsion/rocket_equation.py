@@ -13,38 +13,10 @@ from __future__ import annotations
 import numpy as np
 import numpy.typing as npt
 
+from propulsion._checks import as_non_negative, as_positive, scalar_or_array
 from propulsion.constants import STANDARD_GRAVITY
 
 ArrayLike = float | npt.NDArray[np.float64]
-
-
-def _array(name: str, value: ArrayLike) -> npt.NDArray[np.float64]:
-    """Convert ``value`` to a float64 array and reject NaN and infinity."""
-    arr = np.asarray(value, dtype=np.float64)
-    if not np.all(np.isfinite(arr)):
-        raise ValueError(f"{name} must be finite, got {value!r}")
-    return arr
-
-
-def _positive(name: str, value: ArrayLike) -> npt.NDArray[np.float64]:
-    arr = _array(name, value)
-    if np.any(arr <= 0.0):
-        raise ValueError(f"{name} must be greater than zero, got {value!r}")
-    return arr
-
-
-def _non_negative(name: str, value: ArrayLike) -> npt.NDArray[np.float64]:
-    arr = _array(name, value)
-    if np.any(arr < 0.0):
-        raise ValueError(f"{name} must not be negative, got {value!r}")
-    return arr
-
-
-def _result(arr: npt.NDArray[np.float64]) -> ArrayLike:
-    """Return a Python float for 0-d results, the array otherwise."""
-    if arr.ndim == 0:
-        return float(arr)
-    return arr
 
 
 def exhaust_velocity(specific_impulse: ArrayLike) -> ArrayLike:
@@ -77,8 +49,8 @@ def exhaust_velocity(specific_impulse: ArrayLike) -> ArrayLike:
     .. [1] G. P. Sutton and O. Biblarz, Rocket Propulsion Elements, 9th ed., Wiley, 2017,
        chapter 2 (definitions of specific impulse and effective exhaust velocity).
     """
-    isp = _positive("specific_impulse", specific_impulse)
-    return _result(isp * STANDARD_GRAVITY)
+    isp = as_positive("specific_impulse", specific_impulse)
+    return scalar_or_array(isp * STANDARD_GRAVITY)
 
 
 def ideal_delta_v(
@@ -120,15 +92,15 @@ def ideal_delta_v(
     .. [2] G. P. Sutton and O. Biblarz, Rocket Propulsion Elements, 9th ed., Wiley, 2017,
        chapter 4 (flight performance).
     """
-    isp = _positive("specific_impulse", specific_impulse)
-    m0 = _positive("mass_initial", mass_initial)
-    mf = _positive("mass_final", mass_final)
+    isp = as_positive("specific_impulse", specific_impulse)
+    m0 = as_positive("mass_initial", mass_initial)
+    mf = as_positive("mass_final", mass_final)
     if np.any(mf > m0):
         raise ValueError(
             f"mass_final ({mass_final!r} kg) must not exceed mass_initial ({mass_initial!r} kg)"
         )
     # log1p of the propellant ratio keeps full relative precision for small burns.
-    return _result(isp * STANDARD_GRAVITY * np.log1p((m0 - mf) / mf))
+    return scalar_or_array(isp * STANDARD_GRAVITY * np.log1p((m0 - mf) / mf))
 
 
 def mass_ratio_for_delta_v(delta_v: ArrayLike, specific_impulse: ArrayLike) -> ArrayLike:
@@ -161,9 +133,9 @@ def mass_ratio_for_delta_v(delta_v: ArrayLike, specific_impulse: ArrayLike) -> A
     .. [1] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed.,
        Butterworth-Heinemann, 2013, chapter 6 (Orbital maneuvers).
     """
-    dv = _non_negative("delta_v", delta_v)
-    isp = _positive("specific_impulse", specific_impulse)
-    return _result(np.exp(dv / (isp * STANDARD_GRAVITY)))
+    dv = as_non_negative("delta_v", delta_v)
+    isp = as_positive("specific_impulse", specific_impulse)
+    return scalar_or_array(np.exp(dv / (isp * STANDARD_GRAVITY)))
 
 
 def final_mass_for_delta_v(
@@ -200,10 +172,10 @@ def final_mass_for_delta_v(
     .. [1] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed.,
        Butterworth-Heinemann, 2013, chapter 6 (Orbital maneuvers).
     """
-    dv = _non_negative("delta_v", delta_v)
-    isp = _positive("specific_impulse", specific_impulse)
-    m0 = _positive("mass_initial", mass_initial)
-    return _result(m0 * np.exp(-dv / (isp * STANDARD_GRAVITY)))
+    dv = as_non_negative("delta_v", delta_v)
+    isp = as_positive("specific_impulse", specific_impulse)
+    m0 = as_positive("mass_initial", mass_initial)
+    return scalar_or_array(m0 * np.exp(-dv / (isp * STANDARD_GRAVITY)))
 
 
 def propellant_for_delta_v(
@@ -242,10 +214,10 @@ def propellant_for_delta_v(
     .. [1] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed.,
        Butterworth-Heinemann, 2013, chapter 6 (Orbital maneuvers).
     """
-    dv = _non_negative("delta_v", delta_v)
-    isp = _positive("specific_impulse", specific_impulse)
-    m0 = _positive("mass_initial", mass_initial)
-    return _result(-m0 * np.expm1(-dv / (isp * STANDARD_GRAVITY)))
+    dv = as_non_negative("delta_v", delta_v)
+    isp = as_positive("specific_impulse", specific_impulse)
+    m0 = as_positive("mass_initial", mass_initial)
+    return scalar_or_array(-m0 * np.expm1(-dv / (isp * STANDARD_GRAVITY)))
 
 
 def stack_delta_v(
@@ -291,14 +263,14 @@ def stack_delta_v(
     .. [1] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed.,
        Butterworth-Heinemann, 2013, chapter 11 (Rocket vehicle dynamics), staging.
     """
-    m0 = np.atleast_1d(_positive("mass_initial", mass_initial))
-    mf = np.atleast_1d(_positive("mass_final", mass_final))
+    m0 = np.atleast_1d(as_positive("mass_initial", mass_initial))
+    mf = np.atleast_1d(as_positive("mass_final", mass_final))
     if m0.ndim != 1 or mf.ndim != 1 or m0.size == 0 or m0.shape != mf.shape:
         raise ValueError(
             "mass_initial and mass_final must be non-empty 1-D arrays of the same length, "
             f"got shapes {m0.shape} and {mf.shape}"
         )
-    isp = _positive("specific_impulse", specific_impulse)
+    isp = as_positive("specific_impulse", specific_impulse)
     if isp.ndim > 1 or (isp.ndim == 1 and isp.shape != m0.shape):
         raise ValueError(
             f"specific_impulse must be a scalar or have one value per stage ({m0.size}), "
@@ -346,7 +318,7 @@ def structural_coefficient(inert_mass: ArrayLike, propellant_mass: ArrayLike) ->
        Butterworth-Heinemann, 2013, chapter 11 (Rocket vehicle dynamics), staging.
     """
     mi, mp = _stage_masses(inert_mass, propellant_mass)
-    return _result(mi / (mi + mp))
+    return scalar_or_array(mi / (mi + mp))
 
 
 def propellant_mass_fraction(inert_mass: ArrayLike, propellant_mass: ArrayLike) -> ArrayLike:
@@ -383,7 +355,7 @@ def propellant_mass_fraction(inert_mass: ArrayLike, propellant_mass: ArrayLike) 
        Butterworth-Heinemann, 2013, chapter 11 (Rocket vehicle dynamics), staging.
     """
     mi, mp = _stage_masses(inert_mass, propellant_mass)
-    return _result(mp / (mi + mp))
+    return scalar_or_array(mp / (mi + mp))
 
 
 def payload_ratio(
@@ -420,16 +392,16 @@ def payload_ratio(
     .. [1] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed.,
        Butterworth-Heinemann, 2013, chapter 11 (Rocket vehicle dynamics), staging.
     """
-    mpl = _non_negative("payload_mass", payload_mass)
+    mpl = as_non_negative("payload_mass", payload_mass)
     mi, mp = _stage_masses(inert_mass, propellant_mass)
-    return _result(mpl / (mi + mp))
+    return scalar_or_array(mpl / (mi + mp))
 
 
 def _stage_masses(
     inert_mass: ArrayLike, propellant_mass: ArrayLike
 ) -> tuple[npt.NDArray[np.float64], npt.NDArray[np.float64]]:
-    mi = _non_negative("inert_mass", inert_mass)
-    mp = _non_negative("propellant_mass", propellant_mass)
+    mi = as_non_negative("inert_mass", inert_mass)
+    mp = as_non_negative("propellant_mass", propellant_mass)
     if np.any(mi + mp <= 0.0):
         raise ValueError("inert_mass + propellant_mass must be greater than zero")
     return mi, mp

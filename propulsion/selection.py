@@ -26,7 +26,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-from propulsion.errors import MissionFileNotFoundError, PropulsionError
+from propulsion.errors import MissionFileNotFoundError, RequestError
 from propulsion.ledger import Rows
 from propulsion.vehicle import Motor
 
@@ -82,31 +82,8 @@ liftoff thrust-to-weight below 1."""
 _FIT_TOLERANCE = 1e-9  # relative: "54 mm" in "54 mm" fits despite rounding of the SI floats
 
 
-class PickError(PropulsionError, ValueError):
-    """A selection request that cannot be run (unknown motor, bad stage count, ...).
-
-    Parameters
-    ----------
-    problem : str
-        What is wrong, in plain words.
-    expected : str
-        What would have been accepted.
-    """
-
-    def __init__(self, problem: str, expected: str = "") -> None:
-        self.problem = problem
-        self.expected = expected
-        super().__init__(problem, expected)
-
-    def __reduce__(self) -> tuple[Any, ...]:
-        return (type(self), (self.problem, self.expected))
-
-    def __str__(self) -> str:
-        problem = self.problem.rstrip(".")
-        message = problem + ("" if problem.endswith("?") else ".")
-        if self.expected:
-            message += f" Expected {self.expected.rstrip('.')}."
-        return message
+class PickError(RequestError):
+    """A selection request that cannot be run (unknown motor, bad stage count, ...)."""
 
 
 @dataclass(frozen=True, eq=False)

@@ -23,7 +23,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from propulsion import ascent, fields, flight
-from propulsion.errors import PropulsionError
+from propulsion.errors import PropulsionError, RequestError
 from propulsion.ledger import BudgetResult, budget
 from propulsion.mission import Mission, parse_mission
 from propulsion.units import UnitParseError, parse_quantity
@@ -43,18 +43,8 @@ _TARGET_FIELD = {
 }
 
 
-class SizingError(PropulsionError, ValueError):
+class SizingError(RequestError):
     """A sizing request that cannot be carried out (no target, a bad range)."""
-
-    def __init__(self, problem: str) -> None:
-        self.problem = problem
-        super().__init__(problem)
-
-    def __reduce__(self) -> tuple[Any, ...]:
-        return (type(self), (self.problem,))
-
-    def __str__(self) -> str:
-        return self.problem.rstrip(".") + "."
 
 
 @dataclass(frozen=True)
@@ -381,9 +371,13 @@ def size(
         except PropulsionError:
             return -math.inf if value < initial else math.inf
 
-    found, value, message, count = _find_root(
-        _finite(flight_metric), initial, low, high, ref.is_count, flight_tolerance
-    )
+    if kind == "delta_v":
+        found, value, count = False, math.nan, 0
+        message = "a delta_v target has no flight quantity to meet; the budget column answers"
+    else:
+        found, value, message, count = _find_root(
+            _finite(flight_metric), initial, low, high, ref.is_count, flight_tolerance
+        )
     flight_result = None
     if found:
         solved = problem.mission_at(value)

@@ -20,7 +20,7 @@ import numpy as np
 
 from propulsion import ascent, flight
 from propulsion.constants import STANDARD_GRAVITY
-from propulsion.errors import PropulsionError
+from propulsion.errors import RequestError
 from propulsion.ledger import budget
 from propulsion.mission import Mission
 from propulsion.sizing import _mass_for_delta_v
@@ -35,18 +35,8 @@ __all__ = ["SplitError", "SplitResult", "split"]
 FloatArray = flight.FloatArray
 
 
-class SplitError(PropulsionError, ValueError):
+class SplitError(RequestError):
     """A mission the split cannot handle (motor stages, no legs)."""
-
-    def __init__(self, problem: str) -> None:
-        self.problem = problem
-        super().__init__(problem)
-
-    def __reduce__(self) -> tuple[Any, ...]:
-        return (type(self), (self.problem,))
-
-    def __str__(self) -> str:
-        return self.problem.rstrip(".") + "."
 
 
 @dataclass(frozen=True)

@@ -12,6 +12,7 @@ import math
 import numpy as np
 import numpy.typing as npt
 
+from propulsion._checks import as_non_negative, as_positive, scalar_or_array
 from propulsion.constants import STANDARD_GRAVITY
 
 ArrayLike = float | npt.NDArray[np.float64]
@@ -182,9 +183,9 @@ def specific_impulse_from_curve(total_impulse: ArrayLike, propellant_mass: Array
     .. [1] G. P. Sutton and O. Biblarz, Rocket Propulsion Elements, 9th ed., Wiley, 2017,
        chapter 2 (specific impulse as total impulse per unit weight of propellant).
     """
-    it = _positive("total_impulse", total_impulse)
-    mp = _positive("propellant_mass", propellant_mass)
-    return _result(it / (mp * STANDARD_GRAVITY))
+    it = as_positive("total_impulse", total_impulse)
+    mp = as_positive("propellant_mass", propellant_mass)
+    return scalar_or_array(it / (mp * STANDARD_GRAVITY))
 
 
 def impulse_class(total_impulse: float) -> str:
@@ -331,34 +332,7 @@ def propellant_mass_flow(
     .. [1] G. P. Sutton and O. Biblarz, Rocket Propulsion Elements, 9th ed., Wiley, 2017,
        chapter 2 (thrust, mass flow and effective exhaust velocity).
     """
-    f = _non_negative("thrust", thrust)
-    it = _positive("total_impulse", total_impulse)
-    mp = _non_negative("propellant_mass", propellant_mass)
-    return _result(f * mp / it)
-
-
-def _array(name: str, value: ArrayLike) -> npt.NDArray[np.float64]:
-    arr = np.asarray(value, dtype=np.float64)
-    if not np.all(np.isfinite(arr)):
-        raise ValueError(f"{name} must be finite, got {value!r}")
-    return arr
-
-
-def _positive(name: str, value: ArrayLike) -> npt.NDArray[np.float64]:
-    arr = _array(name, value)
-    if np.any(arr <= 0.0):
-        raise ValueError(f"{name} must be greater than zero, got {value!r}")
-    return arr
-
-
-def _non_negative(name: str, value: ArrayLike) -> npt.NDArray[np.float64]:
-    arr = _array(name, value)
-    if np.any(arr < 0.0):
-        raise ValueError(f"{name} must not be negative, got {value!r}")
-    return arr
-
-
-def _result(arr: npt.NDArray[np.float64]) -> ArrayLike:
-    if arr.ndim == 0:
-        return float(arr)
-    return arr
+    f = as_non_negative("thrust", thrust)
+    it = as_positive("total_impulse", total_impulse)
+    mp = as_non_negative("propellant_mass", propellant_mass)
+    return scalar_or_array(f * mp / it)

@@ -50,7 +50,8 @@ def split_command(
         from propulsion.report.tables import split_view
 
         stdout().print(split_view(result, units.display()))
-    ok = result.lagrange.feasible and result.direct.converged
+    agree = abs(result.lagrange.liftoff_mass / result.direct.liftoff_mass - 1.0) < 1e-6
+    ok = result.lagrange.feasible and result.direct.converged and agree
     if result.loss_aware is not None:
         ok = ok and result.loss_aware.found
     if not ok:

@@ -20,7 +20,7 @@ from dataclasses import asdict, dataclass, fields, replace
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, NamedTuple
 
-from propulsion.errors import PropulsionError
+from propulsion.errors import RequestError
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -109,31 +109,8 @@ drops them from the end. The table shows them in the order of :data:`COLUMNS`.""
 _SUFFIX = {"mass": "_kg", "length": "_m", "speed": "_m_s", "pressure": "_pa"}
 
 
-class CompareError(PropulsionError, ValueError):
-    """A comparison request that cannot be run (no options, an unknown column).
-
-    Parameters
-    ----------
-    problem : str
-        What is wrong, in plain words.
-    expected : str
-        What would have been accepted.
-    """
-
-    def __init__(self, problem: str, expected: str = "") -> None:
-        self.problem = problem
-        self.expected = expected
-        super().__init__(problem, expected)
-
-    def __reduce__(self) -> tuple[Any, ...]:
-        return (type(self), (self.problem, self.expected))
-
-    def __str__(self) -> str:
-        problem = self.problem.rstrip(".")
-        message = problem + ("" if problem.endswith("?") else ".")
-        if self.expected:
-            message += f" Expected {self.expected.rstrip('.')}."
-        return message
+class CompareError(RequestError):
+    """A comparison request that cannot be run (no options, an unknown column)."""
 
 
 @dataclass(frozen=True)
