@@ -619,8 +619,6 @@ def fly(mission: Mission, rtol: float = 1e-8, margin: bool = True) -> FlightResu
     core = flight.build_core(mission, _flown_stages(mission))
     outcome = flight.simulate(core, rtol=rtol, record=True)
     compute_time = _time.perf_counter() - started
-    _, phase0 = flight._initial(core)
-    model = flight._Model(core, phase0)
     events: list[FlightEvent] = []
 
     def add(name: str, key: str) -> None:
@@ -661,7 +659,6 @@ def fly(mission: Mission, rtol: float = 1e-8, margin: bool = True) -> FlightResu
     add("apogee", "apogee")
     add("ground impact", "ground")
     events.sort(key=lambda event: event.time)
-    del model
 
     ledger = _ledger(core, outcome)
     stages = []

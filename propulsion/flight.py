@@ -525,7 +525,9 @@ class _Model:
                 np.clip(vertical / np.where(speed > 0, speed, 1), -1, 1)
             ),
             "mass": y[M].copy(),
-            "energy": 0.5 * speed**2 - EARTH_MU / radius if self.core.round_earth else 0 * speed,
+            "energy": 0.5 * speed**2 - EARTH_MU / radius
+            if self.core.round_earth
+            else np.full_like(speed, np.nan),
         }
 
 
