@@ -17,6 +17,7 @@ from propulsion.cli import compare as _compare
 from propulsion.cli import data as _data
 from propulsion.cli import fly as _fly
 from propulsion.cli import pick as _pick
+from propulsion.cli import report as _report
 from propulsion.cli import scatter as _scatter
 from propulsion.cli import size as _size
 from propulsion.cli import split as _split
@@ -63,6 +64,7 @@ app.command("split")(_split.split_command)
 app.command("pick")(_pick.pick_command)
 app.command("scatter")(_scatter.scatter_command)
 app.command("compare")(_compare.compare_command)
+app.command("report")(_report.report_command)
 app.command("sweep")(_sweep.sweep_command)
 app.command("check")(_check.check_command)
 app.command("data")(_data.data_command)
