@@ -15,6 +15,13 @@ def budget_command(
     ),
     units: UnitSystem = UNITS_OPTION,
     json_output: bool = JSON_OPTION,
+    plot: Path | None = typer.Option(
+        None,
+        "--plot",
+        help="Draw the budget as a waterfall (ideal Δv, loss allowances, requirement, "
+        "margin) to this .png or .svg file.",
+    ),
+    force: bool = typer.Option(False, "--force", help="Overwrite the --plot file if it exists."),
 ) -> None:
     """Ideal delta-v budget: per stage and per leg, with margins and a verdict.
 
@@ -26,7 +33,16 @@ def budget_command(
     from propulsion.mission import load_mission
 
     with guard():
-        result = budget(load_mission(mission_file))
+        mission = load_mission(mission_file)
+        if plot is not None:
+            from propulsion.report.plots import check_plot_path
+
+            check_plot_path(plot, force)
+        result = budget(mission)
+        if plot is not None:
+            from propulsion.report.plots import budget_ledger_figure, save_figure
+
+            save_figure(budget_ledger_figure(result, units.display()), plot, force)
     if json_output:
         emit_json(result.to_dict())
     else:

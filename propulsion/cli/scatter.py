@@ -35,6 +35,12 @@ def scatter_command(
     samples_file: Path | None = typer.Option(
         None, "--samples", help="Write every sample's inputs and outputs to this CSV (streamed)."
     ),
+    plot: Path | None = typer.Option(
+        None,
+        "--plot",
+        help="Draw histograms of apogee and margin (and where the apogees lie) to this "
+        ".png or .svg file.",
+    ),
     force: bool = typer.Option(False, "--force", help="Overwrite output files that exist."),
     units: UnitSystem = UNITS_OPTION,
     json_output: bool = JSON_OPTION,
@@ -54,6 +60,10 @@ def scatter_command(
 
     with guard():
         mission = load_mission(mission_file)
+        if plot is not None:
+            from propulsion.report.plots import check_plot_path
+
+            check_plot_path(plot, force)
         writer = None
         if samples_file is not None:
             header = ["sample", "valid"]
@@ -92,6 +102,10 @@ def scatter_command(
             raise
         if writer is not None:
             writer.close()
+        if plot is not None:
+            from propulsion.report.plots import save_figure, scatter_figure
+
+            save_figure(scatter_figure(result, units.display()), plot, force)
     if json_output:
         emit_json(result.to_dict())
         return

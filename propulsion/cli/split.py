@@ -21,6 +21,13 @@ def split_command(
     ),
     units: UnitSystem = UNITS_OPTION,
     json_output: bool = JSON_OPTION,
+    plot: Path | None = typer.Option(
+        None,
+        "--plot",
+        help="Draw liftoff mass against the split of the delta-v (two stages) or against "
+        "the stage count to this .png or .svg file.",
+    ),
+    force: bool = typer.Option(False, "--force", help="Overwrite the --plot file if it exists."),
 ) -> None:
     """Optimal staging: the delta-v split that minimises liftoff mass for the payload.
 
@@ -36,6 +43,10 @@ def split_command(
 
     with guard():
         mission = load_mission(mission_file)
+        if plot is not None:
+            from propulsion.report.plots import check_plot_path
+
+            check_plot_path(plot, force)
         counts = tuple(range(1, max_stages + 1))
         if json_output:
             result = split(mission, counts, losses)
@@ -44,6 +55,10 @@ def split_command(
                 result = split(
                     mission, counts, losses, progress=lambda text: status.update(f"Flying: {text}")
                 )
+        if plot is not None:
+            from propulsion.report.plots import save_figure, split_figure
+
+            save_figure(split_figure(result, units.display()), plot, force)
     if json_output:
         emit_json(result.to_dict())
     else:

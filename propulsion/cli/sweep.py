@@ -98,7 +98,15 @@ def sweep_command(
     export: Path | None = typer.Option(
         None, "--export", help="Also write the table to a .csv, .xlsx or .md file."
     ),
-    force: bool = typer.Option(False, "--force", help="Overwrite the --export file if it exists."),
+    plot: Path | None = typer.Option(
+        None,
+        "--plot",
+        help="Draw the apogee (or, without an apogee, the margin) against one swept field, "
+        "or as a contour map over two, to this .png or .svg file.",
+    ),
+    force: bool = typer.Option(
+        False, "--force", help="Overwrite the --export or --plot file if it exists."
+    ),
     units: UnitSystem = UNITS_OPTION,
     json_output: bool = JSON_OPTION,
 ) -> None:
@@ -122,6 +130,15 @@ def sweep_command(
         sort_column = resolve_column(sort) if sort is not None else None
         if export is not None:
             check_export_path(export, force)
+        if plot is not None:
+            from propulsion.report.plots import PlotError, check_plot_path
+
+            check_plot_path(plot, force)
+            if len(axes) > 2:
+                raise PlotError(
+                    f"a sweep picture shows one or two swept fields; --set gives {len(axes)}",
+                    "one or two --set options with --plot",
+                )
         with Progress(
             TextColumn("Sweeping"),
             BarColumn(),
@@ -145,7 +162,24 @@ def sweep_command(
             ).reset_index(drop=True)
         if export is not None:
             export_table(result.frame, export, force=force, units=units.display())
+        if plot is not None:
+            from propulsion.report.plots import save_figure, sweep_figure
+
+            figure = sweep_figure(result, units.display(), _plot_output(result))
+            save_figure(figure, plot, force)
     if json_output:
         emit_json(result.to_dict())
         return
     stdout().print(sweep_view(result, units.display(), sort_column, width=stdout().width))
+
+
+def _plot_output(result: SweepResult) -> str:
+    """The column --plot draws: the apogee when there is one, else the target margin."""
+    frame = result.frame
+    legs = result.mission.legs
+    apogee = "apogee_m" in frame.columns and bool(frame["apogee_m"].notna().any())
+    if apogee and (not legs or legs[0].target == "apogee"):
+        return "apogee_m"
+    if "margin" in frame.columns and frame["margin"].notna().any():
+        return "margin"
+    return "apogee_m"

@@ -40,9 +40,15 @@ __all__ = [
     "print_view",
     "scatter_view",
     "sizing_view",
+    "sparkline",
     "split_view",
     "verdict_text",
 ]
+
+_BLOCKS = " ▁▂▃▄▅▆▇█"
+"""Unicode lower blocks from empty to full, in eighths of a character cell."""
+SPARKLINE_WIDTH = 48
+"""Columns of the altitude sparkline under the flight's events [characters]."""
 
 
 def _num(value: float, digits: int = 4) -> str:
@@ -334,8 +340,83 @@ def data_view(
     return Group(fam, mot, drag)
 
 
-def flight_view(result: FlightResult, units: DisplayUnits) -> RenderableType:
-    """What `fly` shows: events, the loss ledger, orbit, verdict, warnings, caution."""
+def sparkline(values: Sequence[float], rows: int = 1) -> list[str]:
+    """A sparkline of values in Unicode block characters, one character per value.
+
+    Each value is scaled between the smallest and the largest of the finite values to a
+    height of 1 to ``8 * rows`` eighths of a character cell; the smallest shows as the
+    lowest block, the largest fills every row. Non-finite values are left blank.
+
+    Parameters
+    ----------
+    values : sequence of float
+        The values, in order [any unit].
+    rows : int
+        Lines of text the sparkline spans [dimensionless, 1 or more].
+
+    Returns
+    -------
+    list of str
+        ``rows`` lines, the top line first, each as long as ``values``.
+
+    References
+    ----------
+    .. [1] The Unicode Standard, Version 15.0, chart "Block Elements" (U+2580-U+259F):
+       U+2581 to U+2588, the lower one to eight eighths blocks.
+    """
+    if rows < 1:
+        raise ValueError(f"rows must be at least 1, got {rows}")
+    finite = [v for v in values if math.isfinite(v)]
+    low, high = (min(finite), max(finite)) if finite else (0.0, 0.0)
+    steps = 8 * rows
+    levels = []
+    for value in values:
+        if not math.isfinite(value):
+            levels.append(0)
+        elif high > low:
+            levels.append(1 + round((value - low) / (high - low) * (steps - 1)))
+        else:
+            levels.append(1)
+    return [
+        "".join(_BLOCKS[min(max(level - 8 * row, 0), 8)] for level in levels)
+        for row in range(rows - 1, -1, -1)
+    ]
+
+
+def _altitude_sparkline(result: FlightResult, units: DisplayUnits) -> Text | None:
+    """Two lines of altitude against time, with the start and end times and the apogee."""
+    import numpy as np
+
+    frame = result.trajectory
+    time = frame["time_s"].to_numpy(dtype=float)
+    altitude = frame["altitude_m"].to_numpy(dtype=float)
+    keep = np.isfinite(time) & np.isfinite(altitude)
+    time, altitude = time[keep], altitude[keep]
+    if time.size < 2 or not time[-1] > time[0]:
+        return None
+    grid = np.linspace(time[0], time[-1], SPARKLINE_WIDTH)
+    top, bottom = sparkline([float(v) for v in np.interp(grid, time, altitude)], rows=2)
+    length = units.label("length")
+    if math.isfinite(result.apogee):
+        peak = f"apogee {_q(result.apogee, 'length', units)} {length}"
+    else:
+        peak = f"highest {_q(float(altitude.max()), 'length', units)} {length}"
+    start = f"{_num(float(time[0]))} s"
+    text = Text()
+    text.append("Altitude against time\n", style="bold")
+    text.append(f"{' ' * len(start)} {top} {peak}\n")
+    text.append(f"{start} {bottom} {_num(float(time[-1]))} s")
+    return text
+
+
+def flight_view(
+    result: FlightResult, units: DisplayUnits, altitude_sparkline: bool = True
+) -> RenderableType:
+    """What `fly` shows: events, the loss ledger, orbit, verdict, warnings, caution.
+
+    With ``altitude_sparkline``, a two-line sparkline of altitude against time follows the
+    events (`fly` leaves it out when it draws the flight to a picture with --plot).
+    """
     parts: list[RenderableType] = [mission_summary(result.mission)]
     length, speed = units.label("length"), units.label("speed")
     events = _table("Events")
@@ -357,6 +438,11 @@ def flight_view(result: FlightResult, units: DisplayUnits) -> RenderableType:
             _q(event.dynamic_pressure, "pressure", units, 3),
         )
     parts.append(events)
+    if altitude_sparkline:
+        spark = _altitude_sparkline(result, units)
+        if spark is not None:
+            parts.append(spark)
+            parts.append(Text())
     rows = list(result.ledger)
     names = [f"{row.segment}" for row in rows[:-1]] + ["total"]
 

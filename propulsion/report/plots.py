@@ -1,0 +1,1284 @@
+"""Pictures of the results: the flown ascent, the delta-v ledgers, dispersions, sweeps, splits.
+
+Every figure is a :class:`matplotlib.figure.Figure` drawn on the non-interactive Agg canvas
+without pyplot, so no global state changes and no window opens. matplotlib is imported
+inside the functions, never when this module is imported: the command line stays fast.
+Values arrive in SI and are converted to the display units (``--units``) here, with the
+same factors as the terminal tables.
+
+The style is our own and plain: white background, a thin grey grid, one dark ink colour,
+and distinct line styles, hatches and markers instead of colours, so that a picture reads
+the same printed in greyscale. Each figure carries a caption line with the mission's name,
+the tool's version and the reminder that these are planning estimates.
+
+Series carry a ``gid`` (``"altitude"``, ``"ideal"``, ``"target_contour"``, ...) so that a
+report or a test can find what was drawn without relying on drawing order.
+"""
+
+from __future__ import annotations
+
+import io
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+import numpy.typing as npt
+
+from propulsion import __version__
+from propulsion.atmosphere import TOP_ALTITUDE
+from propulsion.errors import OutputExistsError, RequestError
+from propulsion.units import DisplayUnits, format_number, to_display
+
+if TYPE_CHECKING:
+    from matplotlib.axes import Axes
+    from matplotlib.figure import Figure
+
+    from propulsion.ascent import FlightResult
+    from propulsion.ledger import BudgetResult
+    from propulsion.mission import Mission
+    from propulsion.stage_split import SplitResult
+    from propulsion.studies.scatter import ScatterResult
+    from propulsion.studies.sweep import SweepResult
+
+__all__ = [
+    "FIGURE_SIZE",
+    "FLIGHT_FIGURE_SIZE",
+    "PLOT_FORMATS",
+    "PlotError",
+    "budget_ledger_figure",
+    "check_plot_path",
+    "figure_bytes",
+    "flight_figure",
+    "flight_ledger_figure",
+    "plot_format",
+    "save_figure",
+    "scatter_figure",
+    "split_curve",
+    "split_figure",
+    "sweep_figure",
+]
+
+FloatArray = npt.NDArray[np.float64]
+
+PLOT_FORMATS = {".png": "png", ".svg": "svg"}
+"""File extension -> format of the pictures that can be written."""
+DPI = 100
+"""Resolution of the pictures [dots per inch]: an 8 x 5 in figure is 800 x 500 pixels."""
+FLIGHT_FIGURE_SIZE = (8.0, 9.0)
+"""Size of the flight figure [in]."""
+FIGURE_SIZE = (8.0, 5.0)
+"""Size of the other figures [in]."""
+
+INK = "#1d2b3a"
+"""The one dark colour of every series."""
+GREY = "#6f6f6f"
+"""Secondary lines: event marks, targets, labels."""
+PALE = "#c9ced4"
+"""Fill of reference bars (requirements)."""
+GRID = "#dedede"
+"""The thin grid."""
+_G0 = 9.80665  # standard gravity [m/s²] (CGPM 1901), for accelerations shown in g
+
+# Short labels and line styles of the events marked on the flight figure.
+_EVENT_STYLE: tuple[tuple[str, str, str | tuple[int, tuple[int, ...]]], ...] = (
+    ("rail exit", "rail exit", (0, (1, 2))),
+    (" burnout", "b/o", "--"),
+    (" separation", "sep.", ":"),
+    (" ignition", "ign.", "-."),
+    ("max dynamic pressure", "max q", (0, (6, 2, 1, 2))),
+    ("engine cutoff (orbit)", "cutoff", "-"),
+    ("apogee", "apogee", "-"),
+    ("ground impact", "impact", "-"),
+)
+
+# Dispersed fields that move the apogee sideways: the wind and the launch angles.
+_SIDEWAYS_FIELDS = ("wind_speed", "elevation", "azimuth")
+
+
+class PlotError(RequestError):
+    """A picture that cannot be drawn or written (unknown file type, unsuitable result)."""
+
+
+# --- files -------------------------------------------------------------------------------
+
+
+def plot_format(path: str | Path) -> str:
+    """The picture format a file name asks for, from its extension.
+
+    Parameters
+    ----------
+    path : str or Path
+        The file to write.
+
+    Returns
+    -------
+    str
+        ``"png"`` or ``"svg"``.
+
+    Raises
+    ------
+    PlotError
+        The extension is neither ``.png`` nor ``.svg`` (in any letter case).
+
+    References
+    ----------
+    .. [1] ISO/IEC 15948:2004, Portable Network Graphics (PNG) specification; W3C, Scalable
+       Vector Graphics (SVG) 1.1, 2nd ed., 2011: the two formats behind the extensions.
+    """
+    suffix = Path(path).suffix.lower()
+    if suffix not in PLOT_FORMATS:
+        shown = f"'{Path(path).suffix}'" if Path(path).suffix else "no extension"
+        raise PlotError(
+            f"cannot write the picture {path}: the file name has {shown}",
+            "a file name ending in .png or .svg",
+        )
+    return PLOT_FORMATS[suffix]
+
+
+def check_plot_path(path: str | Path, force: bool = False) -> Path:
+    """Check a picture's file name before any work is done (no matplotlib needed).
+
+    Parameters
+    ----------
+    path : str or Path
+        The file to write.
+    force : bool
+        Whether an existing file may be replaced.
+
+    Returns
+    -------
+    Path
+        The path, checked.
+
+    Raises
+    ------
+    PlotError
+        The extension is neither ``.png`` nor ``.svg``.
+    OutputExistsError
+        The file exists and ``force`` is False.
+
+    References
+    ----------
+    .. [1] ISO/IEC 15948:2004 (PNG) and W3C SVG 1.1, 2nd ed., 2011.
+    """
+    target = Path(path)
+    plot_format(target)
+    if target.exists() and not force:
+        raise OutputExistsError(target)
+    return target
+
+
+def figure_bytes(figure: Figure, fmt: str = "png") -> bytes:
+    """Render a figure to the bytes of a PNG or SVG file.
+
+    Parameters
+    ----------
+    figure : matplotlib.figure.Figure
+        A figure from this module (any figure works).
+    fmt : str
+        ``"png"`` (raster, at :data:`DPI`) or ``"svg"`` (vector, sizes in points).
+
+    Returns
+    -------
+    bytes
+        The file's content. The SVG carries no date, so the same figure gives the same bytes.
+
+    Raises
+    ------
+    PlotError
+        ``fmt`` is neither ``"png"`` nor ``"svg"``.
+
+    References
+    ----------
+    .. [1] ISO/IEC 15948:2004 (PNG) and W3C SVG 1.1, 2nd ed., 2011.
+    """
+    fmt = fmt.lower().lstrip(".")
+    if fmt not in PLOT_FORMATS.values():
+        raise PlotError(f"cannot render a picture as {fmt!r}", "'png' or 'svg'")
+    _attach_canvas(figure)
+    buffer = io.BytesIO()
+    metadata: dict[str, Any] = {"Date": None} if fmt == "svg" else {}
+    figure.savefig(buffer, format=fmt, dpi=DPI, metadata=metadata)
+    return buffer.getvalue()
+
+
+def save_figure(figure: Figure, path: str | Path, force: bool = False) -> Path:
+    """Write a figure to a PNG or SVG file (by its extension), whole or not at all.
+
+    Parameters
+    ----------
+    figure : matplotlib.figure.Figure
+        The figure.
+    path : str or Path
+        The file; its extension (``.png`` or ``.svg``) chooses the format.
+    force : bool
+        Replace the file if it exists.
+
+    Returns
+    -------
+    Path
+        The file written.
+
+    Raises
+    ------
+    PlotError
+        Another extension.
+    OutputExistsError
+        The file exists and ``force`` is False (the file is left as it was).
+
+    References
+    ----------
+    .. [1] ISO/IEC 15948:2004 (PNG) and W3C SVG 1.1, 2nd ed., 2011.
+    """
+    from propulsion.report.files import write_atomic
+
+    target = check_plot_path(path, force)
+    return write_atomic(target, figure_bytes(figure, plot_format(target)), force)
+
+
+# --- style -------------------------------------------------------------------------------
+
+
+def _attach_canvas(figure: Figure) -> None:
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    if not isinstance(figure.canvas, FigureCanvasAgg):
+        FigureCanvasAgg(figure)
+
+
+def _new_figure(size: tuple[float, float], mission: Mission, title: str) -> Figure:
+    """An empty figure in our style with its title and caption."""
+    from matplotlib.figure import Figure
+
+    figure = Figure(figsize=size, dpi=DPI, facecolor="white", layout="constrained")
+    _attach_canvas(figure)
+    engine = figure.get_layout_engine()
+    if engine is not None:
+        engine.set(rect=(0.0, 0.03, 1.0, 0.97))  # type: ignore[call-arg]
+    figure.suptitle(title, fontsize=11, color=INK, fontweight="bold")
+    figure.text(
+        0.01,
+        0.006,
+        f"{mission.name} · propulsion {__version__} · planning estimates, not a safety analysis",
+        fontsize=7,
+        color=GREY,
+        ha="left",
+        va="bottom",
+    )
+    return figure
+
+
+def _tick(value: float, _: Any = None) -> str:
+    if value == 0:
+        return "0"
+    if abs(value) >= 1e4:
+        return f"{value:,.0f}"
+    return f"{value:,.6g}"
+
+
+def _style(ax: Axes) -> None:
+    """Our plain look: white, thin grey grid below the data, light spines, readable ticks."""
+    from matplotlib.ticker import FuncFormatter
+
+    ax.set_facecolor("white")
+    ax.grid(True, color=GRID, linewidth=0.5)
+    ax.set_axisbelow(True)
+    for side in ("top", "right"):
+        ax.spines[side].set_visible(False)
+    for side in ("left", "bottom"):
+        ax.spines[side].set_color(GREY)
+        ax.spines[side].set_linewidth(0.8)
+    ax.tick_params(colors="#333333", labelsize=8, width=0.6, length=3)
+    ax.xaxis.set_major_formatter(FuncFormatter(_tick))
+    ax.yaxis.set_major_formatter(FuncFormatter(_tick))
+    ax.xaxis.label.set_fontsize(9)
+    ax.yaxis.label.set_fontsize(9)
+    ax.xaxis.label.set_color(INK)
+    ax.yaxis.label.set_color(INK)
+
+
+def _legend(ax: Axes, **kwargs: Any) -> None:
+    legend = ax.legend(fontsize=7, frameon=True, **kwargs)
+    legend.get_frame().set_edgecolor(GRID)
+    legend.get_frame().set_linewidth(0.5)
+
+
+def _factor(dimension: str | None, units: DisplayUnits) -> float:
+    """Display value per SI value (1 for numbers without a unit)."""
+    if dimension is None:
+        return 1.0
+    return to_display(1.0, dimension, units)
+
+
+def _unit(dimension: str | None, units: DisplayUnits) -> str:
+    return units.label(dimension) if dimension is not None else ""
+
+
+def _label(title: str, dimension: str | None, units: DisplayUnits) -> str:
+    unit = _unit(dimension, units)
+    return f"{title} ({unit})" if unit else title
+
+
+def _shown(value: float, dimension: str | None, units: DisplayUnits, digits: int = 4) -> str:
+    """A value with its display unit, for titles and notes."""
+    if not math.isfinite(value):
+        return "—"
+    number = format_number(value * _factor(dimension, units), digits)
+    unit = _unit(dimension, units)
+    return f"{number} {unit}".strip()
+
+
+def _column(frame: Any, name: str) -> FloatArray:
+    return np.asarray(frame[name].to_numpy(dtype=float), dtype=np.float64)
+
+
+# --- flight ------------------------------------------------------------------------------
+
+
+def _is_orbital(result: FlightResult) -> bool:
+    legs = result.mission.legs
+    return result.orbit is not None or bool(legs and legs[0].target == "circular_orbit")
+
+
+def _event_mark(name: str) -> tuple[str, str | tuple[int, tuple[int, ...]]] | None:
+    """Short label and line style of an event, or None for events not marked."""
+    for key, short, style in _EVENT_STYLE:
+        if key.startswith(" ") and name.endswith(key):
+            return f"{name[: -len(key)]} {short}", style
+        if name == key:
+            return short, style
+    return None
+
+
+def flight_figure(result: FlightResult, units: DisplayUnits) -> Figure:
+    """The flown ascent against time: altitude, speed, acceleration, Mach, dynamic pressure.
+
+    Events (rail exit, burnouts, separations, ignitions, maximum dynamic pressure, engine
+    cutoff, apogee) are marked with vertical lines and short labels. Orbital missions (an
+    osculating orbit at the end, or a first leg aiming at a circular orbit) get a sixth
+    panel: altitude against downrange.
+
+    Parameters
+    ----------
+    result : FlightResult
+        A flown ascent (:func:`propulsion.ascent.fly`), SI.
+    units : DisplayUnits
+        Display units: altitude and downrange in [m] or [ft], speed in [m/s] or [ft/s],
+        dynamic pressure in [kPa] or [psi]; acceleration in [g] (multiples of standard
+        gravity, 9.80665 m/s²) and Mach [dimensionless] in both.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        8 x 9 in at 100 dpi. Lines carry the gids ``altitude``, ``speed`` (relative to the
+        ground), ``inertial_speed``, ``acceleration``, ``mach``, ``dynamic_pressure``,
+        ``altitude_downrange`` and ``event:<name>``.
+
+    References
+    ----------
+    .. [1] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed., 2013,
+       section 11.2 (the ascent and its losses).
+    .. [2] NOAA/NASA/USAF, U.S. Standard Atmosphere, 1976 (speed of sound and density
+       behind the Mach number and dynamic pressure).
+    """
+    frame = result.trajectory
+    orbital = _is_orbital(result)
+    mission = result.mission
+    figure = _new_figure(FLIGHT_FIGURE_SIZE, mission, f"{mission.name}: the flown ascent")
+    rows = 6 if orbital else 5
+    time = _column(frame, "time_s")
+    length = _factor("length", units)
+    speed = _factor("speed", units)
+    pressure = _factor("pressure", units)
+    top = figure.add_subplot(rows, 1, 1)
+    panels = [top] + [figure.add_subplot(rows, 1, k, sharex=top) for k in range(2, 6)]
+    for ax in panels:
+        _style(ax)
+    for ax in panels[:-1]:
+        ax.tick_params(labelbottom=False)
+    series = (
+        (0, "altitude", "altitude_m", length, _label("Altitude", "length", units)),
+        (1, "speed", "speed_m_s", speed, _label("Speed", "speed", units)),
+        (2, "acceleration", "acceleration_g", 1.0, "Acceleration (g)"),
+        (3, "mach", "mach", 1.0, "Mach"),
+        (4, "dynamic_pressure", "dynamic_pressure_pa", pressure, ""),
+    )
+    # the standard atmosphere ends at 86 km: above it there is no Mach number to show
+    above = _column(frame, "altitude_m") + mission.launch.altitude > TOP_ALTITUDE
+    for index, gid, column, factor, ylabel in series:
+        ax = panels[index]
+        label = "relative to the ground" if gid == "speed" else None
+        data = _column(frame, column) * factor
+        if gid == "mach" and above.any():
+            data = np.where(above, np.nan, data)
+            ax.text(
+                0.99,
+                0.9,
+                f"not defined above {_shown(TOP_ALTITUDE, 'length', units)} (top of the "
+                "standard atmosphere)",
+                transform=ax.transAxes,
+                ha="right",
+                va="top",
+                fontsize=7,
+                color=GREY,
+            )
+        ax.plot(time, data, color=INK, lw=1.3, gid=gid, label=label)
+        ax.set_ylabel(ylabel or _label("Dyn. pressure", "pressure", units))
+    panels[1].plot(
+        time,
+        _column(frame, "inertial_speed_m_s") * speed,
+        color=INK,
+        lw=1.0,
+        ls="--",
+        gid="inertial_speed",
+        label="inertial",
+    )
+    _legend(panels[1], loc="best")
+    panels[-1].set_xlabel("Time (s)")
+    if time.size:
+        top.set_xlim(float(time[0]), float(time[-1]))
+    _mark_events(result, panels)
+    facts = []
+    if math.isfinite(result.apogee):
+        when = format_number(result.apogee_time)
+        facts.append(f"apogee {_shown(result.apogee, 'length', units)} at {when} s")
+    facts.append(f"max Mach {format_number(result.max_mach, 3)}")
+    facts.append(f"max q {_shown(result.max_dynamic_pressure, 'pressure', units, 3)}")
+    if result.orbit is not None:
+        facts.append(
+            f"orbit {_shown(result.orbit.perigee_altitude, 'length', units)} × "
+            f"{_shown(result.orbit.apogee_altitude, 'length', units)}"
+        )
+    top.set_title("; ".join(facts), fontsize=8, color=GREY, loc="left")
+    if orbital:
+        ax = figure.add_subplot(rows, 1, 6)
+        _style(ax)
+        ax.plot(
+            _column(frame, "downrange_m") * length,
+            _column(frame, "altitude_m") * length,
+            color=INK,
+            lw=1.3,
+            gid="altitude_downrange",
+        )
+        ax.set_xlabel(_label("Downrange", "length", units))
+        ax.set_ylabel(_label("Altitude", "length", units))
+        ax.set_title("Altitude against downrange", fontsize=8, color=GREY, loc="left")
+    return figure
+
+
+def _mark_events(result: FlightResult, panels: Sequence[Axes]) -> None:
+    """Vertical lines at the events on every time panel, short labels on the top one."""
+    marks = []
+    for event in result.events:
+        mark = _event_mark(event.name)
+        if mark is None or not math.isfinite(event.time):
+            continue
+        label, style = mark
+        for ax in panels:
+            ax.axvline(
+                event.time, color=GREY, lw=0.7, ls=style, gid=f"event:{event.name}", zorder=1
+            )
+        marks.append((event.time, label))
+    top = panels[0]
+    low, high = top.get_xlim()
+    span = high - low if high > low else 1.0
+    placed = -1.0
+    for time, label in sorted(marks):
+        # labels closer than a label's height are pushed right so they stay readable
+        where = max((time - low) / span, placed + 0.022)
+        placed = where
+        right_edge = where > 0.95  # at the right edge the label goes left of its line
+        top.text(
+            where - 0.004 if right_edge else where + 0.004,
+            0.96,
+            label,
+            transform=top.transAxes,
+            rotation=90,
+            fontsize=6.5,
+            color=GREY,
+            ha="right" if right_edge else "left",
+            va="top",
+        )
+
+
+# --- ledgers -----------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class _Bar:
+    """One bar of a waterfall: its gid, label, bottom and height (display units), kind."""
+
+    gid: str
+    label: str
+    bottom: float
+    height: float
+    kind: str
+
+
+def _draw_bars(ax: Axes, bars: Sequence[_Bar], unit: str) -> None:
+    """Draw waterfall bars by kind: totals solid, losses hatched, references pale."""
+    looks: dict[str, dict[str, Any]] = {
+        "total": {"color": INK, "edgecolor": INK},
+        "loss": {"color": "white", "edgecolor": INK, "hatch": "///"},
+        "required": {"color": PALE, "edgecolor": INK},
+        "allowance": {"color": "none", "edgecolor": INK, "hatch": ".."},
+        "margin": {"color": "white", "edgecolor": INK, "hatch": "xx"},
+    }
+    positions: dict[str, int] = {}
+    scale = max((abs(bar.height) for bar in bars), default=1.0) or 1.0
+    for bar in bars:
+        if bar.kind == "allowance" and bar.gid.startswith("required"):
+            x = positions["required"]
+        else:
+            x = len(positions)
+            positions[bar.gid] = x
+        container = ax.bar(
+            x, bar.height, bottom=bar.bottom, width=0.62, linewidth=0.8, **looks[bar.kind]
+        )
+        container.patches[0].set_gid(bar.gid)
+        if bar.gid == "required_allowance":
+            continue
+        top = bar.bottom + max(bar.height, 0.0)
+        sign = "−" if bar.kind == "loss" else ""
+        # round-off (a steering loss of 1e-15 m/s) is shown as the zero it is
+        value = 0.0 if abs(bar.height) < 1e-9 * scale else bar.height
+        ax.text(
+            x,
+            top,
+            f"{sign if value else ''}{format_number(abs(value) if sign else value)}",
+            ha="center",
+            va="bottom",
+            fontsize=7,
+            color=INK,
+        )
+    labels = {bar.gid: bar.label for bar in bars}
+    ax.set_xticks(list(positions.values()))
+    ax.set_xticklabels([labels[gid] for gid in positions], fontsize=7)
+    ax.axhline(0.0, color=GREY, lw=0.8)
+    ax.set_ylabel(f"Δv ({unit})")
+
+
+def budget_ledger_figure(result: BudgetResult, units: DisplayUnits) -> Figure:
+    """The ideal budget as a waterfall: ideal Δv, loss allowances, requirement, margin.
+
+    Bars: the stack's ideal delta-v; each leg's loss allowance (the estimate stated in the
+    mission file) taken away; what is left after them; the mission's total requirement
+    (``verdict.total_required``: legs, leg reserves and the mission reserve), drawn with
+    its loss allowances hatched on top; and the margin (``verdict.margin``) standing on the
+    requirement, with the required margin marked. Without losses counted twice, the
+    requirement's plain part and the margin add up to what is left after the allowances.
+
+    Parameters
+    ----------
+    result : BudgetResult
+        The ideal budget (:func:`propulsion.ledger.budget`), SI.
+    units : DisplayUnits
+        Display units: delta-v in [m/s] or [ft/s].
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        8 x 5 in at 100 dpi. Bars (rectangles) carry the gids ``ideal``,
+        ``allowance:<leg index>``, ``achieved``, ``required``, ``required_allowance`` and
+        ``margin``; the required margin is the line ``required_margin``.
+
+    References
+    ----------
+    .. [1] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed., 2013,
+       sections 11.3 and 11.5 (the rocket equation, multistage rockets).
+    """
+    mission = result.mission
+    s = _factor("speed", units)
+    unit = units.label("speed")
+    ideal = result.total_ideal_delta_v * s
+    bars = [_Bar("ideal", "ideal Δv", 0.0, ideal, "total")]
+    level = ideal
+    allowances = 0.0
+    for index, leg in enumerate(mission.legs):
+        allowance = sum(v for label, v in leg.requirement.terms if label == "loss allowance") * s
+        if allowance:
+            bars.append(
+                _Bar(
+                    f"allowance:{index}",
+                    f"loss allowance\n{_wrap(leg.name)}",
+                    level - allowance,
+                    allowance,
+                    "loss",
+                )
+            )
+            level -= allowance
+            allowances += allowance
+    bars.append(_Bar("achieved", "= after loss\nallowances", 0.0, ideal - allowances, "total"))
+    figure = _new_figure(FIGURE_SIZE, mission, f"{mission.name}: ideal delta-v budget")
+    ax = figure.add_subplot(1, 1, 1)
+    _style(ax)
+    verdict = result.verdict
+    if mission.legs:
+        required = verdict.total_required * s
+        margin = verdict.margin * s
+        bars.append(_Bar("required", "required\n(legs, reserves)", 0.0, required, "required"))
+        if allowances:
+            bars.append(
+                _Bar("required_allowance", "", required - allowances, allowances, "allowance")
+            )
+        bars.append(_Bar("margin", "margin", required, margin, "margin"))
+        _draw_bars(ax, bars, unit)
+        x = [b.gid for b in bars if b.gid != "required_allowance"].index("margin")
+        needed = required + verdict.required_margin * s
+        ax.hlines(
+            needed, x - 0.4, x + 0.4, colors=INK, linestyles="--", lw=1.2, gid="required_margin"
+        )
+        ax.text(x + 0.42, needed, "required\nmargin", fontsize=6.5, color=GREY, va="center")
+        outcome = {True: "meets its targets", False: "falls short", None: "no target"}
+        ax.set_title(
+            f"Margin {_shown(verdict.margin, 'speed', units)} "
+            f"({verdict.margin_fraction:+.1%} of the requirement); required margin "
+            f"{_shown(verdict.required_margin, 'speed', units)}: "
+            f"{outcome[verdict.meets_targets]}. Hatched dots: the loss allowances "
+            "inside the requirement.",
+            fontsize=7.5,
+            color=GREY,
+            loc="left",
+            wrap=True,
+        )
+    else:
+        _draw_bars(ax, bars, unit)
+        ax.set_title("No legs stated: nothing to compare.", fontsize=8, color=GREY, loc="left")
+    return figure
+
+
+def _wrap(text: str, width: int = 16) -> str:
+    """Break a label into lines of about ``width`` characters."""
+    import textwrap
+
+    lines = textwrap.wrap(text, width) or [""]
+    return "\n".join(lines[:2]) + ("…" if len(lines) > 2 else "")
+
+
+def flight_ledger_figure(result: FlightResult, units: DisplayUnits) -> Figure:
+    """The flight's delta-v ledger as a waterfall, with the budget's requirement and margin.
+
+    Bars: the ideal delta-v flown (integral of vacuum thrust over mass); the gravity,
+    drag, steering and back-pressure losses taken away; the achieved change of inertial
+    speed (ideal minus losses, up to the ledger's closure); then, for comparison, the first
+    leg's required delta-v from the ideal budget (its loss allowance hatched: the flight
+    computes the losses instead) and the flight's margin in ideal delta-v (found by
+    root finding on payload; absent when the flight was flown without the margin search).
+
+    Parameters
+    ----------
+    result : FlightResult
+        A flown ascent (:func:`propulsion.ascent.fly`), SI.
+    units : DisplayUnits
+        Display units: delta-v in [m/s] or [ft/s].
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        8 x 5 in at 100 dpi. Bars carry the gids ``ideal``, ``gravity_loss``,
+        ``drag_loss``, ``steering_loss``, ``pressure_loss``, ``achieved``, ``required``,
+        ``required_allowance`` and ``margin``.
+
+    References
+    ----------
+    .. [1] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed., 2013,
+       section 11.2, eq. 11.8 and following (the delta-v losses of a launch).
+    """
+    from propulsion.ledger import budget
+
+    mission = result.mission
+    s = _factor("speed", units)
+    total = result.total
+    ideal = total.ideal * s
+    bars = [_Bar("ideal", "ideal Δv", 0.0, ideal, "total")]
+    level = ideal
+    for gid, label in (
+        ("gravity_loss", "gravity\nloss"),
+        ("drag_loss", "drag\nloss"),
+        ("steering_loss", "steering\nloss"),
+        ("pressure_loss", "back-pressure\nloss"),
+    ):
+        loss = float(getattr(total, gid)) * s
+        bars.append(_Bar(gid, label, level - loss, loss, "loss"))
+        level -= loss
+    bars.append(
+        _Bar("achieved", "= achieved\n(Δ inertial speed)", 0.0, total.achieved * s, "total")
+    )
+    title = f"{mission.name}: delta-v ledger of the flight"
+    figure = _new_figure(FIGURE_SIZE, mission, title)
+    ax = figure.add_subplot(1, 1, 1)
+    _style(ax)
+    notes = [f"closure {format_number(total.closure * s, 3)} {units.label('speed')}"]
+    if mission.legs:
+        leg = mission.legs[0]
+        required = budget(mission).legs[0].required_delta_v * s
+        allowance = sum(v for label, v in leg.requirement.terms if label == "loss allowance") * s
+        bars.append(_Bar("required", "required\n(budget, 1st leg)", 0.0, required, "required"))
+        if allowance:
+            bars.append(
+                _Bar("required_allowance", "", required - allowance, allowance, "allowance")
+            )
+            notes.append(
+                f"hatched dots: the budget's loss allowance {_shown(allowance / s, 'speed', units)}"
+            )
+        margin = result.verdict.margin_delta_v
+        if math.isfinite(margin):
+            bars.append(_Bar("margin", "margin\n(flown)", 0.0, margin * s, "margin"))
+            notes.append(
+                "margin: delta-v left after the later legs' needs"
+                if leg.target == "circular_orbit"
+                else "margin: ideal Δv that could be taken away and still meet the target"
+            )
+        else:
+            notes.append(f"margin: {result.verdict.method}")
+    _draw_bars(ax, bars, units.label("speed"))
+    ax.set_title("; ".join(notes) + ".", fontsize=7.5, color=GREY, loc="left", wrap=True)
+    return figure
+
+
+# --- dispersion --------------------------------------------------------------------------
+
+
+def _histogram(
+    ax: Axes, values: FloatArray, gid: str, xlabel: str, mark: float | None, mark_label: str
+) -> int:
+    """A histogram of the finite values with an optional marked value; returns the count."""
+    finite = values[np.isfinite(values)]
+    ax.set_xlabel(xlabel)
+    ax.set_ylabel("Samples")
+    if not finite.size:
+        ax.text(0.5, 0.5, "no finite values", transform=ax.transAxes, ha="center", color=GREY)
+        return 0
+    edges = np.histogram_bin_edges(finite, bins="auto")
+    if edges.size > 41:
+        edges = np.histogram_bin_edges(finite, bins=40)
+    counts, edges = np.histogram(finite, bins=edges)
+    bars = ax.bar(
+        edges[:-1],
+        counts,
+        width=np.diff(edges),
+        align="edge",
+        color=INK,
+        edgecolor="white",
+        linewidth=0.5,
+    )
+    for patch in bars.patches:
+        patch.set_gid(gid)
+    if mark is not None and math.isfinite(mark):
+        ax.axvline(mark, color=GREY, lw=1.4, ls="--", gid=f"{gid}_mark", label=mark_label)
+        _legend(ax, loc="upper left")
+    return int(finite.size)
+
+
+def scatter_figure(result: ScatterResult, units: DisplayUnits) -> Figure:
+    """A dispersion study: histograms of apogee and margin, and where the apogees lie.
+
+    The apogee histogram marks the target altitude (apogee targets); the margin histogram
+    (in the target's own terms: a length for apogee, a speed for burnout speed and orbit)
+    marks zero margin. The title gives the probability of meeting the target with its 95 %
+    Wilson interval. When a wind or launch-angle field is dispersed, a third panel shows
+    each sample's apogee against its downrange distance at apogee.
+
+    Parameters
+    ----------
+    result : ScatterResult
+        A dispersion study (:func:`propulsion.studies.scatter.scatter`), SI.
+    units : DisplayUnits
+        Display units: lengths in [m] or [ft], speeds in [m/s] or [ft/s].
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        8 x 5 in at 100 dpi. Histogram bars carry the gids ``apogee_hist`` and
+        ``margin_hist``, the marks ``apogee_hist_mark`` and ``margin_hist_mark``, the
+        sample points ``downrange_apogee``.
+
+    References
+    ----------
+    .. [1] E. B. Wilson, "Probable inference, the law of succession, and statistical
+       inference", Journal of the American Statistical Association 22(158), 209-212, 1927.
+    """
+    mission = result.mission
+    sideways = any(d.field.strip().split(".")[-1] in _SIDEWAYS_FIELDS for d in mission.dispersions)
+    figure = _new_figure(
+        FIGURE_SIZE,
+        mission,
+        f"{mission.name}: {result.valid:,} dispersed flights (seed {result.seed})",
+    )
+    count = 3 if sideways else 2
+    length = _factor("length", units)
+    ax = figure.add_subplot(1, count, 1)
+    _style(ax)
+    apogee = result.values.get("apogee_m", np.zeros(0)) * length
+    target = result.required * length if result.target == "apogee" else None
+    _histogram(
+        ax,
+        apogee,
+        "apogee_hist",
+        _label("Apogee", "length", units),
+        target,
+        f"target {_shown(result.required, 'length', units)}",
+    )
+    ax.set_title("Apogee", fontsize=9, color=INK, loc="left")
+    ax = figure.add_subplot(1, count, 2)
+    _style(ax)
+    dimension = "length" if result.target == "apogee" else "speed"
+    margin = result.values.get("margin", np.zeros(0)) * _factor(dimension, units)
+    _histogram(
+        ax,
+        margin if result.target else np.zeros(0),
+        "margin_hist",
+        _label("Margin", dimension, units),
+        0.0 if result.target else None,
+        "zero margin",
+    )
+    ax.set_title("Margin (target terms)", fontsize=9, color=INK, loc="left")
+    if math.isfinite(result.probability):
+        low, high = result.interval
+        figure.suptitle(
+            f"{mission.name}: {result.valid:,} dispersed flights (seed {result.seed})\n"
+            f"probability of meeting the {result.target} target {result.probability:.1%} "
+            f"(95 % Wilson interval {low:.1%} to {high:.1%})",
+            fontsize=10,
+            color=INK,
+            fontweight="bold",
+        )
+    if sideways:
+        ax = figure.add_subplot(1, count, 3)
+        _style(ax)
+        downrange = result.values.get("downrange_m", np.zeros(0)) * length
+        ax.scatter(
+            downrange,
+            apogee,
+            s=7,
+            marker="o",
+            facecolors="none",
+            edgecolors=INK,
+            linewidths=0.6,
+            gid="downrange_apogee",
+        )
+        if target is not None:
+            ax.axhline(target, color=GREY, lw=1.2, ls="--")
+        ax.set_xlabel(_label("Downrange at apogee", "length", units))
+        ax.set_ylabel(_label("Apogee", "length", units))
+        ax.set_title("Where the apogees lie", fontsize=9, color=INK, loc="left")
+    return figure
+
+
+# --- sweep -------------------------------------------------------------------------------
+
+
+def _output_dimension(result: SweepResult, output: str) -> tuple[str, str | None]:
+    """Title and dimension of a sweep output column."""
+    from propulsion.studies.compare import COLUMNS
+
+    spec = COLUMNS.get(output)
+    title = spec.title if spec is not None else output
+    dimension = spec.dimension if spec is not None else None
+    if output == "margin" and "margin_unit" in result.frame.columns:
+        unit = next((u for u in result.frame["margin_unit"] if isinstance(u, str) and u), "")
+        dimension = {"m": "length", "m/s": "speed"}.get(unit)
+    return title, dimension
+
+
+def _sweep_target(result: SweepResult, output: str) -> tuple[float | None, str]:
+    """The target level of an output [SI] and its description, or None."""
+    legs = result.mission.legs
+    if output in ("margin", "margin_delta_v_m_s"):
+        return 0.0, "zero margin"
+    if output == "apogee_m" and legs and legs[0].target == "apogee":
+        return legs[0].fields["altitude"], "target apogee"
+    return None, ""
+
+
+def _axis_values(frame: Any, column: str, dimension: str | None, units: DisplayUnits) -> FloatArray:
+    return _column(frame, column) * _factor(dimension, units)
+
+
+def sweep_figure(result: SweepResult, units: DisplayUnits, output: str = "apogee_m") -> Figure:
+    """A sweep's output against its swept field(s).
+
+    One swept field: the output against the field, with the target level drawn (the target
+    apogee for ``apogee_m`` when the first leg aims at an apogee; zero for the margins).
+    Two fields: a filled contour map of the output over the grid (a heat map when an axis
+    has fewer than three points), the grid points dotted, and the target contour drawn.
+
+    Parameters
+    ----------
+    result : SweepResult
+        A sweep (:func:`propulsion.studies.sweep.sweep`), SI.
+    units : DisplayUnits
+        Display units of the swept fields and the output (lengths [m] or [ft], masses [kg]
+        or [lb], speeds [m/s] or [ft/s], angles [deg], ...).
+    output : str
+        A column of ``result.frame``: ``apogee_m``, ``margin``, ``max_mach``, ...
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        8 x 5 in at 100 dpi. The output line has the gid ``output``, the target line
+        ``target``; the map ``output_map``, the target contour ``target_contour``.
+
+    Raises
+    ------
+    PlotError
+        The sweep has no such column, no rows, or more than two swept fields.
+
+    References
+    ----------
+    .. [1] W. E. Lorensen and H. E. Cline, "Marching cubes: a high resolution 3D surface
+       construction algorithm", SIGGRAPH 1987 (the contour-tracing family behind the target
+       contour).
+    """
+    frame = result.frame
+    axes = result.axes
+    if len(axes) not in (1, 2):
+        raise PlotError(
+            f"a sweep picture shows one or two swept fields; this sweep has {len(axes)}",
+            "one or two --set options with --plot",
+        )
+    if not len(frame):
+        raise PlotError("none of the sweep's points could be flown, so there is nothing to draw")
+    if output not in frame.columns:
+        raise PlotError(
+            f"the sweep has no column {output!r}",
+            "one of " + ", ".join(str(c) for c in frame.columns if c not in ("name", "source")),
+        )
+    title, dimension = _output_dimension(result, output)
+    target, target_text = _sweep_target(result, output)
+    mission = result.mission
+    names = " and ".join(axis.ref.name for axis in axes)
+    figure = _new_figure(FIGURE_SIZE, mission, f"{mission.name}: {title} over {names}")
+    ax = figure.add_subplot(1, 1, 1)
+    _style(ax)
+    factor = _factor(dimension, units)
+    values = _column(frame, output) * factor
+    shown_target = target * factor if target is not None else None
+    dims = [None if axis.ref.is_count else axis.ref.dimension for axis in axes]
+    keep = [i for i, axis in enumerate(axes) if len(axis.values) > 1] or [0]
+    if len(axes) == 2 and len(keep) == 2:
+        _sweep_map(figure, ax, result, values, dims, units, shown_target, title, dimension)
+    else:
+        i = keep[0]
+        axis = axes[i]
+        x = _axis_values(frame, axis.column, dims[i], units)
+        order = np.argsort(x, kind="stable")
+        ax.plot(x[order], values[order], color=INK, lw=1.3, marker="o", ms=4, gid="output")
+        ax.set_xlabel(_label(axis.ref.name, dims[i], units))
+        ax.set_ylabel(_label(title, dimension, units))
+        if shown_target is not None:
+            ax.axhline(shown_target, color=GREY, lw=1.2, ls="--", gid="target", label=target_text)
+            crossing = _crossing(x[order], values[order], shown_target)
+            if crossing is not None:
+                ax.axvline(crossing, color=GREY, lw=0.8, ls=":")
+                ax.annotate(
+                    f"{format_number(crossing)}",
+                    (crossing, shown_target),
+                    xytext=(4, 4),
+                    textcoords="offset points",
+                    fontsize=7,
+                    color=GREY,
+                )
+            _legend(ax, loc="best")
+    if result.skipped:
+        ax.set_title(
+            f"{len(result.skipped)} grid point(s) skipped: impossible vehicles",
+            fontsize=7.5,
+            color=GREY,
+            loc="left",
+        )
+    return figure
+
+
+def _crossing(x: FloatArray, y: FloatArray, level: float) -> float | None:
+    """The first x where the piecewise-linear y crosses the level, or None."""
+    finite = np.isfinite(x) & np.isfinite(y)
+    x, y = x[finite], y[finite] - level
+    for k in range(x.size - 1):
+        if y[k] == 0:
+            return float(x[k])
+        if y[k] * y[k + 1] < 0:
+            return float(x[k] - y[k] * (x[k + 1] - x[k]) / (y[k + 1] - y[k]))
+    return float(x[-1]) if x.size and y[-1] == 0 else None
+
+
+def _sweep_map(
+    figure: Figure,
+    ax: Axes,
+    result: SweepResult,
+    values: FloatArray,
+    dims: Sequence[str | None],
+    units: DisplayUnits,
+    target: float | None,
+    title: str,
+    dimension: str | None,
+) -> None:
+    """The output over a two-field grid, with the target contour."""
+    from matplotlib import patheffects
+    from matplotlib.colors import LinearSegmentedColormap
+
+    frame = result.frame
+    first, second = result.axes
+    xs = np.asarray(first.values, dtype=float)
+    ys = np.asarray(second.values, dtype=float)
+    at = {
+        (float(a), float(b)): float(v)
+        for a, b, v in zip(
+            _column(frame, first.column), _column(frame, second.column), values, strict=True
+        )
+    }
+    grid = np.full((ys.size, xs.size), np.nan)
+    for i, x in enumerate(xs):
+        for j, y in enumerate(ys):
+            grid[j, i] = at.get((float(x), float(y)), np.nan)
+    gx = xs * _factor(dims[0], units)
+    gy = ys * _factor(dims[1], units)
+    surface = np.ma.masked_invalid(grid)
+    cmap = LinearSegmentedColormap.from_list("propulsion_ink", ["#f3f5f7", INK])
+    finite = grid[np.isfinite(grid)]
+    if finite.size and (xs.size < 3 or ys.size < 3 or np.ptp(finite) == 0):
+        shading = ax.pcolormesh(gx, gy, surface, cmap=cmap, shading="nearest")
+        shading.set_gid("output_map")
+        colorbar = figure.colorbar(shading, ax=ax)
+    elif finite.size:
+        filled = ax.contourf(gx, gy, surface, levels=12, cmap=cmap)
+        filled.set_gid("output_map")
+        colorbar = figure.colorbar(filled, ax=ax)
+    else:
+        colorbar = None
+    if colorbar is not None:
+        colorbar.set_label(_label(title, dimension, units), fontsize=8)
+        colorbar.ax.tick_params(labelsize=7)
+    mesh_x, mesh_y = np.meshgrid(gx, gy)
+    ax.plot(
+        mesh_x.ravel(),
+        mesh_y.ravel(),
+        ls="none",
+        marker="o",
+        ms=3,
+        markerfacecolor="white",
+        markeredgecolor=INK,
+        markeredgewidth=0.6,
+        gid="grid",
+    )
+    ax.set_xlabel(_label(first.ref.name, dims[0], units))
+    ax.set_ylabel(_label(second.ref.name, dims[1], units))
+    if target is None:
+        return
+    if finite.size and finite.min() <= target <= finite.max() and xs.size > 1 and ys.size > 1:
+        contour = ax.contour(
+            gx, gy, surface, levels=[target], colors=INK, linewidths=2.0, linestyles="--"
+        )
+        contour.set_gid("target_contour")
+        contour.set(path_effects=[patheffects.withStroke(linewidth=4, foreground="white")])
+        # labels over the line (not cut into it), so the contour keeps its traced vertices
+        for text in ax.clabel(
+            contour, inline=False, fmt=lambda v: f"target {format_number(v)}", fontsize=7
+        ):
+            text.set_bbox({"facecolor": "white", "edgecolor": "none", "pad": 1.0})
+    else:
+        ax.text(
+            0.01,
+            1.01,
+            f"the target level {format_number(target)} is not reached in the swept range",
+            transform=ax.transAxes,
+            fontsize=7.5,
+            color=GREY,
+        )
+
+
+# --- split -------------------------------------------------------------------------------
+
+
+def split_curve(result: SplitResult, shares: FloatArray) -> FloatArray:
+    """Liftoff mass of a two-stage stack against the first stage's share of the delta-v.
+
+    Parameters
+    ----------
+    result : SplitResult
+        A split (:func:`propulsion.stage_split.split`) of a two-stage mission, SI.
+    shares : numpy.ndarray
+        First stage's share of the required delta-v [dimensionless, 0 to 1].
+
+    Returns
+    -------
+    numpy.ndarray
+        Liftoff mass [kg] (payload included) of the stack that gives each share and the rest
+        to the second stage; NaN where a stage cannot give its share.
+
+    References
+    ----------
+    .. [1] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed., 2013,
+       section 11.6 (stages sized from the top down at constant structural coefficient).
+    """
+    from propulsion.stage_split import stack_for_split
+
+    exhaust = np.asarray(result.specific_impulse, dtype=float) * _G0
+    epsilon = np.asarray(result.structural_coefficient, dtype=float)
+    payload = result.mission.vehicle.payload_mass
+    out = np.full(shares.size, np.nan)
+    for k, share in enumerate(shares):
+        split = np.array([share, 1.0 - share]) * result.required_delta_v
+        stack = stack_for_split(split, exhaust, epsilon, payload)
+        if stack is not None:
+            out[k] = payload + float(stack.sum())
+    return out
+
+
+def split_figure(result: SplitResult, units: DisplayUnits) -> Figure:
+    """Liftoff mass against the split of the delta-v, or against the stage count.
+
+    For a two-stage mission: the liftoff mass of the stack (rocket equation, constant
+    structural coefficient) against the first stage's share of the required delta-v from
+    5 % to 95 %, with the Lagrange optimum, the loss-aware optimum (when found; its own
+    total delta-v differs, so it lies off the curve) and the current design marked. For one
+    or three and more stages: the optimal liftoff mass against the stage count.
+
+    Parameters
+    ----------
+    result : SplitResult
+        A split (:func:`propulsion.stage_split.split`), SI.
+    units : DisplayUnits
+        Display units: masses in [kg] or [lb], delta-v in [m/s] or [ft/s].
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        8 x 5 in at 100 dpi. The curve has the gid ``liftoff_curve`` (x: share in %), the
+        marks ``lagrange``, ``loss_aware`` and ``current``; the stage-count line
+        ``count_curve`` and the mission's own count ``mission_count``.
+
+    References
+    ----------
+    .. [1] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed., 2013,
+       section 11.6 (optimal staging).
+    """
+    mission = result.mission
+    mass = _factor("mass", units)
+    required = _shown(result.required_delta_v, "speed", units)
+    stages = int(np.asarray(result.specific_impulse).size)
+    if stages == 2:
+        title = f"{mission.name}: liftoff mass against the split of {required}"
+    else:
+        title = f"{mission.name}: liftoff mass against the stage count ({required})"
+    figure = _new_figure(FIGURE_SIZE, mission, title)
+    ax = figure.add_subplot(1, 1, 1)
+    _style(ax)
+    if stages == 2:
+        _split_curve_axes(ax, result, mass, units)
+    else:
+        _count_axes(ax, result, mass, units, stages)
+    return figure
+
+
+def _split_curve_axes(ax: Axes, result: SplitResult, mass: float, units: DisplayUnits) -> None:
+    shares = np.linspace(0.05, 0.95, 181)
+    liftoff = split_curve(result, shares) * mass
+    ax.plot(shares * 100, liftoff, color=INK, lw=1.4, gid="liftoff_curve", label="ideal stack")
+    finite = liftoff[np.isfinite(liftoff)]
+    lagrange = result.lagrange
+    if lagrange.feasible:
+        share = float(lagrange.delta_v[0] / lagrange.delta_v.sum())
+        ax.plot(
+            [share * 100],
+            [lagrange.liftoff_mass * mass],
+            ls="none",
+            marker="o",
+            ms=7,
+            color=INK,
+            gid="lagrange",
+            label=f"Lagrange optimum ({share:.1%}, {_shown(lagrange.liftoff_mass, 'mass', units)})",
+        )
+    loss = result.loss_aware
+    if loss is not None and loss.found:
+        share = float(loss.delta_v[0] / loss.delta_v.sum())
+        ax.plot(
+            [share * 100],
+            [loss.liftoff_mass * mass],
+            ls="none",
+            marker="s",
+            ms=7,
+            markerfacecolor="white",
+            markeredgecolor=INK,
+            gid="loss_aware",
+            label=f"loss-aware optimum, flown ({share:.1%}, "
+            f"{_shown(loss.liftoff_mass, 'mass', units)}; "
+            f"Δv {_shown(float(loss.delta_v.sum()), 'speed', units)})",
+        )
+    current = np.asarray(result.current_delta_v, dtype=float)
+    if current.size == 2 and current.sum() > 0:
+        share = float(current[0] / current.sum())
+        total = _shown(float(current.sum()), "speed", units)
+        ax.plot(
+            [share * 100],
+            [result.current_liftoff_mass * mass],
+            ls="none",
+            marker="^",
+            ms=7,
+            markerfacecolor="white",
+            markeredgecolor=GREY,
+            gid="current",
+            label=f"current design ({share:.1%}; Δv {total})",
+        )
+    if finite.size:
+        low = float(finite.min())
+        marks = [low]
+        if loss is not None and loss.found:
+            marks.append(loss.liftoff_mass * mass)
+        marks.append(result.current_liftoff_mass * mass)
+        high = min(float(finite.max()), 3.0 * low)
+        ax.set_ylim(0.92 * min(marks), max(high, 1.08 * max(marks)))
+    else:
+        ax.text(
+            0.5,
+            0.5,
+            "no split of the delta-v can be reached by these stages",
+            transform=ax.transAxes,
+            ha="center",
+            color=GREY,
+        )
+    ax.set_xlim(0, 100)
+    ax.set_xlabel("First stage's share of the delta-v (%)")
+    ax.set_ylabel(_label("Liftoff mass", "mass", units))
+    _legend(ax, loc="upper center")
+
+
+def _count_axes(
+    ax: Axes, result: SplitResult, mass: float, units: DisplayUnits, stages: int
+) -> None:
+    counts = [s.stage_count for s in result.counts]
+    masses = np.array([s.liftoff_mass if s.feasible else np.nan for s in result.counts]) * mass
+    ax.plot(counts, masses, color=INK, lw=1.2, marker="o", ms=5, gid="count_curve")
+    for count, solution in zip(counts, result.counts, strict=True):
+        if not solution.feasible:
+            ax.annotate(
+                "cannot reach\nthe requirement",
+                (count, 0.0),
+                xycoords=("data", "axes fraction"),
+                xytext=(0, 8),
+                textcoords="offset points",
+                ha="center",
+                fontsize=7,
+                color=GREY,
+            )
+    if stages in counts:
+        k = counts.index(stages)
+        if math.isfinite(masses[k]):
+            ax.plot(
+                [stages],
+                [masses[k]],
+                ls="none",
+                marker="s",
+                ms=10,
+                markerfacecolor="none",
+                markeredgecolor=INK,
+                gid="mission_count",
+                label=f"the mission's {stages} stage(s)",
+            )
+            _legend(ax, loc="upper right")
+    ax.set_xticks(counts)
+    ax.set_xlabel("Stages (each like the mission's, the last repeated)")
+    ax.set_ylabel(_label("Optimal liftoff mass", "mass", units))
