@@ -18,6 +18,7 @@ _COLUMNS = {
     "altitude_m": ("altitude", "length"),
     "downrange_m": ("downrange", "length"),
     "speed_m_s": ("speed", "speed"),
+    "inertial_speed_m_s": ("inertial_speed", "speed"),
     "vertical_speed_m_s": ("vertical_speed", "speed"),
     "dynamic_pressure_pa": ("dynamic_pressure", "pressure"),
     "mass_kg": ("mass", "mass"),
