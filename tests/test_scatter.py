@@ -16,6 +16,7 @@ from scipy import stats
 from typer.testing import CliRunner
 
 from propulsion import fields
+from propulsion.ascent import fly
 from propulsion.cli import app
 from propulsion.errors import MissionError
 from propulsion.ledger import budget
@@ -282,3 +283,30 @@ def test_cluster_survives_a_worker_killed_mid_study(dask_client: Any) -> None:
     assert killed, "no worker was killed"
     assert sorted(seen) == list(range(0, 600, 25)) and set(seen.values()) == {1}
     assert_same(local, remote)
+
+
+def test_fields_the_file_leaves_out_disperse_around_what_the_mission_takes() -> None:
+    # the booster's case mass comes from the motor file, and this field is applied by
+    # rebuilding the mission per sample (the slow path)
+    mission = competition()
+    doc = mission.document
+    doc["dispersion"] = [
+        {"field": "stage.booster.motor.case_mass", "distribution": "normal", "sigma": "0.4 kg"}
+    ]
+    case = parse_mission(doc, source=mission.source, base_dir=MISSIONS)
+    result = scatter(case, 60, seed=5, workers=1)
+    # negative case masses are impossible: counted under the field's own name
+    assert set(result.invalid_reasons) <= {"stage.booster.motor.case_mass"}
+    assert 0 < result.valid < 60
+    nominal = fly(mission, margin=False).apogee
+    assert result.percentiles["apogee_m"][50.0] == pytest.approx(nominal, rel=0.02)
+
+
+def test_a_field_without_any_nominal_is_bad_input() -> None:
+    doc = competition().document
+    doc["dispersion"] = [
+        {"field": "flight.pitch_kick_time", "distribution": "normal", "sigma": "1 s"}
+    ]
+    mission = parse_mission(doc, base_dir=MISSIONS)
+    with pytest.raises(MissionError, match="needs a nominal value"):
+        scatter(mission, 10, seed=1, workers=1)

@@ -9,7 +9,15 @@ from typing import TYPE_CHECKING
 import numpy as np
 import typer
 
-from propulsion.cli.common import JSON_OPTION, UNITS_OPTION, UnitSystem, emit_json, guard, stdout
+from propulsion.cli.common import (
+    JSON_OPTION,
+    UNITS_OPTION,
+    UnitSystem,
+    emit_json,
+    guard,
+    stderr,
+    stdout,
+)
 
 if TYPE_CHECKING:
     from propulsion.studies.scatter import ChunkResult
@@ -18,7 +26,7 @@ if TYPE_CHECKING:
 def scatter_command(
     mission_file: Path = typer.Argument(
         ...,
-        help="Mission file (TOML) with [[dispersion]] tables.",
+        help="Mission file (TOML) with dispersion tables.",
         show_default=False,
         metavar="MISSION.toml",
     ),
@@ -80,7 +88,7 @@ def scatter_command(
             BarColumn(),
             TextColumn("{task.completed:,.0f}/{task.total:,.0f}"),
             TimeRemainingColumn(),
-            console=stdout(),
+            console=stderr(),
             disable=json_output,
             transient=True,
         )

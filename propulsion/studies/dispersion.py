@@ -19,7 +19,7 @@ import numpy as np
 import numpy.typing as npt
 
 from propulsion import ascent, fields, flight
-from propulsion.errors import PropulsionError
+from propulsion.errors import MissionError, PropulsionError
 from propulsion.mission import Dispersion, Mission, parse_mission
 
 __all__ = ["Sampler", "draw"]
@@ -50,6 +50,33 @@ def draw(
                 values[d, j] = rng.triangular(dispersion.low, dispersion.mode, dispersion.high)
         keys[j] = rng.random()
     return values, keys
+
+
+def _nominal(mission: Mission, ref: fields.FieldRef) -> float:
+    """The field's nominal value: from the file, or what the mission takes when it is silent."""
+    value = fields.get_value(mission.document, ref)
+    if value is not None:
+        return float(value)
+    path = ref.path
+    launch = mission.launch
+    implied: dict[str, float] = {
+        "elevation": launch.elevation,
+        "rail_length": launch.rail_length or 0.0,
+        "site_altitude": launch.altitude,
+        "wind_speed": launch.wind_offset,
+    }
+    if path[0] == "launch" and str(path[1]) in implied:
+        return float(implied[str(path[1])])
+    if path[0] == "stage" and len(path) == 4 and path[2] == "motor":
+        motor = mission.vehicle.stages[int(path[1])].propulsion
+        if path[3] in ("propellant_mass", "case_mass"):
+            return float(getattr(motor, str(path[3])))
+    raise MissionError(
+        mission.source,
+        ref.name,
+        "a dispersed field needs a nominal value, and the file does not give this one",
+        f"a value for {ref.name} in the file (or a 'mean' for a normal distribution)",
+    )
 
 
 @dataclass
@@ -97,8 +124,7 @@ class Sampler:
         self.refs = [fields.resolve(mission.document, d.field) for d in self.dispersions]
         nominal = []
         for ref in self.refs:
-            value = fields.get_value(mission.document, ref)
-            nominal.append(float(value) if value is not None else 0.0)
+            nominal.append(_nominal(mission, ref))
         self.nominal = nominal
         self.stages = ascent._flown_stages(mission)
         self.mappings = [_fast_mapping(ref, mission) for ref in self.refs]
@@ -131,7 +157,8 @@ class Sampler:
                     cores.append(flight.build_core(sample, self.stages))
                 except PropulsionError as exc:
                     built[j] = False
-                    reasons[j] = str(exc)
+                    names = ", ".join(self.dispersions[d].field for d in slow)
+                    reasons[j] = f"{names}: {exc}"
             empty = self.core.take(np.zeros(0, dtype=np.int64))
             core = _concatenate(cores, self.core) if cores else empty
         else:

@@ -422,6 +422,8 @@ def scatter(
         import os
 
         share = workers if workers is not None else (os.cpu_count() or 1)
+        if cluster is not None or os.environ.get("PROPULSION_DASK_SCHEDULER"):
+            share = 8  # a cluster's size is not known here: enough chunks to share out
         chunk_size = max(500, min(5000, math.ceil(samples / max(share, 1))))
     chunks, where = run_chunks(spec, samples, chunk_size, collect, workers=workers, cluster=cluster)
     return summarise(mission, aggregate, seed, chunks, where, time.perf_counter() - started)
