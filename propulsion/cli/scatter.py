@@ -75,7 +75,10 @@ def scatter_command(
         writer = None
         if samples_file is not None:
             header = ["sample", "valid"]
-            header += [f"{d.field} [{_si(d.dimension)}]" for d in mission.dispersions]
+            header += [
+                f"{d.field} [{_si(d.dimension)}]" if _si(d.dimension) else d.field
+                for d in mission.dispersions
+            ]
             header += [_metric_header(metric) for metric in METRICS] + ["meets_target"]
             writer = StreamedCsv(samples_file, header, force)
 

@@ -71,7 +71,11 @@ def sweep_view(
                 )
             )
     for point, reason in result.skipped:
-        parts.append(Text(f"Skipped {point}: {reason}", style="yellow"))
+        where = ", ".join(
+            f"{axis.ref.name} = {value:g} {'' if axis.ref.is_count else axis.ref.si_unit}".strip()
+            for axis, value in zip(result.axes, point, strict=True)
+        )
+        parts.append(Text(f"Skipped {where}: {reason}", style="yellow"))
     parts.append(
         Text(
             "Each point is budgeted and flown as `propulsion fly --no-margin` does; the "

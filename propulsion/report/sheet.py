@@ -12,6 +12,7 @@ import math
 from collections.abc import Mapping, Sequence
 from typing import TYPE_CHECKING, Any
 
+import numpy as np
 from rich.cells import cell_len
 from rich.console import Console, ConsoleOptions, Group, RenderableType, RenderResult
 from rich.measure import Measurement
@@ -165,7 +166,8 @@ def _build(
                 column.append(Text("yes", style="green") if value else Text("no", style="red"))
             elif numbers:
                 shown = to_display(float(value), dim, units) if dim else float(value)
-                text = _number(shown, digits)
+                integral = isinstance(value, int | np.integer) and not isinstance(value, bool)
+                text = f"{int(value):,}" if integral and dim is None else _number(shown, digits)
                 # the unit varies per row: show it, on the number's line
                 label = units.label(dim) if dim is not None and dimension is None else ""
                 whole = bool(label)
