@@ -1085,48 +1085,39 @@ class _Builder:
                 "the sea-level specific impulse, or the nozzle exit area of one engine",
             )
         p0 = USSA76_SEA_LEVEL_PRESSURE
+        exit_area: float | None = None
+        isp_sea_level = 0.0
+        if table.has("exit_area"):
+            exit_area = float(table.quantity("exit_area", "area", low=0.0) or 0.0)
+        else:
+            isp_sea_level = float(
+                table.quantity(
+                    "isp_sea_level",
+                    "time",
+                    high=isp_vacuum,
+                    expected="a specific impulse above zero and not above isp_vacuum",
+                    low=0.0,
+                    low_inclusive=False,
+                )
+                or 0.0
+            )
         if table.has("thrust_vacuum"):
             thrust_vacuum = float(
                 table.quantity("thrust_vacuum", "force", low=0.0, low_inclusive=False) or 0.0
             )
-            mass_flow = thrust_vacuum / (isp_vacuum * STANDARD_GRAVITY)
-            if table.has("exit_area"):
-                exit_area = float(table.quantity("exit_area", "area", low=0.0) or 0.0)
-            else:
-                isp_sea_level = float(
-                    table.quantity(
-                        "isp_sea_level",
-                        "time",
-                        high=isp_vacuum,
-                        expected="a specific impulse above zero and not above isp_vacuum",
-                        low=0.0,
-                        low_inclusive=False,
-                    )
-                    or 0.0
-                )
+            if exit_area is None:
+                mass_flow = thrust_vacuum / (isp_vacuum * STANDARD_GRAVITY)
                 exit_area = (isp_vacuum - isp_sea_level) * STANDARD_GRAVITY * mass_flow / p0
         else:
             thrust_sea_level = float(
                 table.quantity("thrust_sea_level", "force", low=0.0, low_inclusive=False) or 0.0
             )
-            if table.has("exit_area"):
-                exit_area = float(table.quantity("exit_area", "area", low=0.0) or 0.0)
-                thrust_vacuum = thrust_sea_level + p0 * exit_area
-            else:
-                isp_sea_level = float(
-                    table.quantity(
-                        "isp_sea_level",
-                        "time",
-                        high=isp_vacuum,
-                        expected="a specific impulse above zero and not above isp_vacuum",
-                        low=0.0,
-                        low_inclusive=False,
-                    )
-                    or 0.0
-                )
+            if exit_area is None:
                 mass_flow = thrust_sea_level / (isp_sea_level * STANDARD_GRAVITY)
                 thrust_vacuum = mass_flow * isp_vacuum * STANDARD_GRAVITY
                 exit_area = (thrust_vacuum - thrust_sea_level) / p0
+            else:
+                thrust_vacuum = thrust_sea_level + p0 * exit_area
         engine = Engine(thrust_vacuum, isp_vacuum, exit_area, family)
         return engine, count
 
