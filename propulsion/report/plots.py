@@ -201,7 +201,11 @@ def figure_bytes(figure: Figure, fmt: str = "png") -> bytes:
     _attach_canvas(figure)
     buffer = io.BytesIO()
     metadata: dict[str, Any] = {"Date": None} if fmt == "svg" else {}
-    figure.savefig(buffer, format=fmt, dpi=DPI, metadata=metadata)
+    import matplotlib
+
+    # a fixed salt: the SVG's clip-path and marker ids are then the same on every run
+    with matplotlib.rc_context({"svg.hashsalt": "propulsion"}):
+        figure.savefig(buffer, format=fmt, dpi=DPI, metadata=metadata)
     return buffer.getvalue()
 
 
