@@ -28,7 +28,10 @@ __all__ = [
     "fly",
     "load_mission",
     "parse_mission",
+    "pick",
+    "scatter",
     "size",
+    "split",
 ]
 
 if TYPE_CHECKING:
@@ -37,12 +40,18 @@ if TYPE_CHECKING:
     from propulsion.ledger import budget
     from propulsion.mission import load_mission, parse_mission
     from propulsion.report.cautions import SAFETY_CAUTION
+    from propulsion.selection import pick
     from propulsion.sizing import size
+    from propulsion.stage_split import split
+    from propulsion.studies.scatter import scatter
 
 _LAZY = {
     "budget": "propulsion.ledger",
     "fly": "propulsion.ascent",
     "size": "propulsion.sizing",
+    "split": "propulsion.stage_split",
+    "pick": "propulsion.selection",
+    "scatter": "propulsion.studies.scatter",
     "load_mission": "propulsion.mission",
     "parse_mission": "propulsion.mission",
     "MissionError": "propulsion.errors",

@@ -706,7 +706,10 @@ def fly(mission: Mission, rtol: float = 1e-8, margin: bool = True) -> FlightResu
         orbit=orbit,
         compute_time=compute_time,
     )
-    result.findings = tuple(_findings(result, core))
+    # the liftoff thrust-to-weight rule is the budget's (it knows the propellant family's
+    # usual minimum); it is a flight warning too
+    liftoff = [f for f in budget(mission).findings if "thrust-to-weight" in f.message]
+    result.findings = tuple(liftoff) + tuple(_findings(result, core))
     return result
 
 
