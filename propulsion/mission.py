@@ -387,6 +387,12 @@ def _range_text(dimension: str, low: float | None, high: float | None, inclusive
     return f"{article} {dimension} of at most {(high or 0.0) * scale:g}{unit}"
 
 
+def _suggest(word: str, choices: Any) -> str:
+    """ "; did you mean 'X'?" for the closest of ``choices``, or nothing."""
+    close = difflib.get_close_matches(word, sorted(choices), n=1)
+    return f"; did you mean '{close[0]}'?" if close else ""
+
+
 def _kind(value: Any) -> str:
     if isinstance(value, bool):
         return "true/false"
@@ -621,8 +627,7 @@ class _Builder:
                 raise table.error("field", "a count cannot be dispersed", "a continuous field")
             distribution = table.string("distribution", default="normal")
             if distribution not in DISTRIBUTIONS:
-                close = difflib.get_close_matches(distribution, sorted(DISTRIBUTIONS), n=1)
-                hint = f"; did you mean '{close[0]}'?" if close else ""
+                hint = _suggest(distribution, sorted(DISTRIBUTIONS))
                 raise table.error(
                     "distribution",
                     f"unknown distribution '{distribution}'{hint}",
@@ -958,8 +963,7 @@ class _Builder:
         key = table.string("propellant")
         families = catalog.propellant_families()
         if key not in families:
-            close = difflib.get_close_matches(key, sorted(families), n=1)
-            hint = f"; did you mean '{close[0]}'?" if close else ""
+            hint = _suggest(key, sorted(families))
             raise table.error(
                 "propellant",
                 f"unknown propellant family '{key}'{hint}",
@@ -984,8 +988,7 @@ class _Builder:
             if table.has("name"):
                 name = table.string("name")
                 if name not in catalog.motor_names():
-                    close = difflib.get_close_matches(name, catalog.motor_names(), n=1)
-                    hint = f"; did you mean '{close[0]}'?" if close else ""
+                    hint = _suggest(name, catalog.motor_names())
                     raise table.error(
                         "name",
                         f"no shipped motor is called '{name}'{hint}",
@@ -1133,8 +1136,7 @@ class _Builder:
             name = table.string("name", default=f"leg {index + 1}")
             kind_name = table.string("target", default="delta_v")
             if kind_name not in TARGET_KINDS:
-                close = difflib.get_close_matches(kind_name, sorted(TARGET_KINDS), n=1)
-                hint = f"; did you mean '{close[0]}'?" if close else ""
+                hint = _suggest(kind_name, sorted(TARGET_KINDS))
                 raise table.error(
                     "target",
                     f"unknown target '{kind_name}'{hint}",
@@ -1151,8 +1153,7 @@ class _Builder:
             stage_names = table.strings("stages")
             for stage_name in stage_names:
                 if stage_name not in names:
-                    close = difflib.get_close_matches(stage_name, names, n=1)
-                    hint = f"; did you mean '{close[0]}'?" if close else ""
+                    hint = _suggest(stage_name, names)
                     raise table.error(
                         "stages",
                         f"no stage is called '{stage_name}'{hint}",
