@@ -1,9 +1,11 @@
-"""The flight runner: fly a mission's ascent and turn the raw integration into a ledger.
+"""The flight runner: fly a mission's ascent and turn the kernel's outcome into a ledger.
 
 :func:`fly` integrates the stages of the first leg with :mod:`propulsion.flight`, then
-builds the delta-v ledger (ideal minus gravity, drag, steering and back-pressure losses
-equals the change of inertial speed, per stage and in total), the events a team checks,
-the verdict against the leg's target with its margin, and plausibility warnings.
+builds the delta-v ledger (ideal plus the Earth-rotation credit minus gravity, drag,
+steering, back-pressure and pad losses equals the change of speed, per stage and in
+total), the events a team checks, the verdict against the leg's target with its margin,
+and flight warnings. It reads only :class:`propulsion.flight.Outcome`: every number of the
+flight is derived in the kernel.
 
 The margin in delta-v terms is found by root finding on the simulation: the payload mass
 that could be added (or must be removed) so that the target is just met, expressed as the
@@ -12,7 +14,6 @@ ideal delta-v it costs.
 
 from __future__ import annotations
 
-import dataclasses
 import itertools
 import math
 import time as _time
@@ -24,6 +25,7 @@ import numpy as np
 
 from propulsion import flight
 from propulsion.constants import EARTH_EQUATORIAL_RADIUS, EARTH_MU, STANDARD_GRAVITY
+from propulsion.flight import layout
 from propulsion.ledger import Rows, budget
 from propulsion.mission import Mission
 from propulsion.plausibility import Finding
@@ -37,11 +39,12 @@ __all__ = [
     "FlightVerdict",
     "LossLedger",
     "Orbit",
+    "flown_stages",
     "fly",
     "osculating_orbit",
 ]
 
-FloatArray = flight.FloatArray
+FloatArray = flight.state.FloatArray
 
 # Rules of thumb for the flight warnings (each with its source in the finding).
 RAIL_EXIT_SPEED_MIN = 15.0
@@ -55,6 +58,10 @@ SHORT_LIFE_PERIGEE = 150e3
 """Perigee altitude [m] below which an orbit decays within days (common practice, no source)."""
 WAIVER_APOGEE = 3000.0
 """Apogee above the launch site [m] beyond which flights usually need an airspace authorisation."""
+IGNITION_TILT_MAX = math.radians(20.0)
+"""Largest tilt from the vertical [rad] at which an unguided upper stage should light: flight-
+safety codes commonly ask for an upper stage to light only within about 20 degrees of
+vertical (common practice in flight-safety codes, no source)."""
 
 
 @dataclass(frozen=True)
@@ -67,16 +74,21 @@ class Orbit:
     apogee_altitude: float
     specific_energy: float
     angular_momentum: float
+    inclination: float = math.nan
 
 
-def osculating_orbit(x: float, y: float, vx: float, vy: float, mu: float = EARTH_MU) -> Orbit:
-    """Osculating orbit of a planar state: semi-major axis, eccentricity, apsis altitudes.
+def osculating_orbit(
+    position: FloatArray | tuple[float, ...],
+    velocity: FloatArray | tuple[float, ...],
+    mu: float = EARTH_MU,
+) -> Orbit:
+    """Osculating orbit of an inertial state: semi-major axis, eccentricity, apsis altitudes.
 
     Parameters
     ----------
-    x, y : float
-        Position from Earth's centre in the orbit plane [m].
-    vx, vy : float
+    position : array of 3 floats
+        Position from Earth's centre, inertial frame [m].
+    velocity : array of 3 floats
         Inertial velocity [m/s].
     mu : float
         Gravitational parameter [m³/s²].
@@ -84,30 +96,48 @@ def osculating_orbit(x: float, y: float, vx: float, vy: float, mu: float = EARTH
     Returns
     -------
     Orbit
-        Elements [m, dimensionless, m, m, J/kg, m²/s]; apogee altitude is infinite for an
-        escape orbit.
+        Elements [m, dimensionless, m, m, J/kg, m²/s, rad]; the apogee altitude is infinite
+        for an escape orbit. A body moving straight up or down (zero angular momentum,
+        eccentricity 1) has its apogee at 2a - r_p, with r_p = 0.
 
     References
     ----------
     .. [1] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed., 2013,
-       eqs. 2.80 (energy), 2.31 (angular momentum) and 2.21 (conic radius).
+       eqs. 2.80 (energy), 2.31 (angular momentum), 2.21 (conic radius), 2.73 (apsides)
+       and Algorithm 4.2 (inclination).
     """
-    radius = math.hypot(x, y)
-    energy = 0.5 * (vx * vx + vy * vy) - mu / radius
-    momentum = x * vy - y * vx
+    r = np.asarray(position, dtype=float)
+    v = np.asarray(velocity, dtype=float)
+    radius = float(np.linalg.norm(r))
+    energy = 0.5 * float(v @ v) - mu / radius
+    h = np.cross(r, v)
+    momentum = float(np.linalg.norm(h))
     eccentricity = math.sqrt(max(0.0, 1.0 + 2.0 * energy * momentum**2 / mu**2))
-    parameter = momentum**2 / mu
-    perigee = parameter / (1.0 + eccentricity)
-    apogee = parameter / (1.0 - eccentricity) if eccentricity < 1.0 else math.inf
     semi_major = -mu / (2.0 * energy) if energy < 0 else math.inf
+    perigee = momentum**2 / mu / (1.0 + eccentricity)
+    # r_a = 2a - r_p holds for every ellipse, the degenerate straight line included
+    apogee = math.inf if energy >= 0 else 2.0 * semi_major - perigee
+    inclination = math.acos(max(-1.0, min(1.0, h[2] / momentum))) if momentum > 0 else math.nan
     return Orbit(
         semi_major_axis=semi_major,
         eccentricity=eccentricity,
         perigee_altitude=perigee - EARTH_EQUATORIAL_RADIUS,
         apogee_altitude=apogee - EARTH_EQUATORIAL_RADIUS,
         specific_energy=energy,
-        angular_momentum=abs(momentum),
+        angular_momentum=momentum,
+        inclination=inclination,
     )
+
+
+def perigee_altitude(states: FloatArray) -> FloatArray:
+    """Perigee altitude of the osculating orbit of states (n, NY) [m] (vectorised)."""
+    r = states[:, layout.Y_R : layout.Y_R + 3]
+    v = states[:, layout.Y_V : layout.Y_V + 3]
+    radius = np.linalg.norm(r, axis=1)
+    energy = 0.5 * np.sum(v * v, axis=1) - EARTH_MU / radius
+    momentum = np.linalg.norm(np.cross(r, v), axis=1)
+    eccentricity = np.sqrt(np.maximum(0.0, 1.0 + 2.0 * energy * momentum**2 / EARTH_MU**2))
+    return momentum**2 / EARTH_MU / (1.0 + eccentricity) - EARTH_EQUATORIAL_RADIUS
 
 
 @dataclass(frozen=True)
@@ -115,7 +145,9 @@ class FlightEvent:
     """One event of the flight, with the state there (SI).
 
     ``speed`` is relative to the ground (the rotating Earth, without wind);
-    ``inertial_speed`` is the speed the delta-v ledger uses.
+    ``inertial_speed`` is the speed in the inertial frame. ``downrange`` and
+    ``crossrange`` are measured from the launch site along and across the launch azimuth
+    (crossrange positive to the right).
     """
 
     name: str
@@ -126,6 +158,8 @@ class FlightEvent:
     acceleration: float
     dynamic_pressure: float
     inertial_speed: float = math.nan
+    downrange: float = math.nan
+    crossrange: float = math.nan
 
     def to_dict(self) -> dict[str, Any]:
         """Fields keyed with SI unit suffixes."""
@@ -138,6 +172,8 @@ class FlightEvent:
             "mach": self.mach,
             "acceleration_g": self.acceleration / STANDARD_GRAVITY,
             "dynamic_pressure_pa": self.dynamic_pressure,
+            "downrange_m": self.downrange,
+            "crossrange_m": self.crossrange,
         }
 
 
@@ -146,7 +182,10 @@ class LossLedger:
     """Delta-v ledger of one stage's segment of the flight, or of the whole flight (m/s).
 
     A stage's segment runs from its ignition to the next stage's ignition (the last one
-    to the end of the flight), so coasts count with the stage before them.
+    to the end of the flight), so coasts count with the stage before them. ``achieved``
+    is the change of the ledger's speed: relative to the rotating Earth while the vehicle
+    is in the atmosphere, inertial once it has left it (the difference of the two at that
+    moment is part of ``rotation_credit``).
     """
 
     segment: str
@@ -156,22 +195,32 @@ class LossLedger:
     steering_loss: float
     pressure_loss: float
     achieved: float
+    rotation_credit: float = 0.0
+    pad_loss: float = 0.0
 
     @property
     def closure(self) -> float:
-        """Ideal minus losses minus achieved [m/s]: zero but for integration error."""
-        losses = self.gravity_loss + self.drag_loss + self.steering_loss + self.pressure_loss
-        return self.ideal - losses - self.achieved
+        """Ideal plus credit minus losses minus achieved [m/s]: zero but for integration error."""
+        losses = (
+            self.gravity_loss
+            + self.drag_loss
+            + self.steering_loss
+            + self.pressure_loss
+            + self.pad_loss
+        )
+        return self.ideal + self.rotation_credit - losses - self.achieved
 
     def to_dict(self) -> dict[str, Any]:
         """Fields keyed with SI unit suffixes."""
         return {
             "segment": self.segment,
             "ideal_m_s": self.ideal,
+            "rotation_credit_m_s": self.rotation_credit,
             "gravity_loss_m_s": self.gravity_loss,
             "drag_loss_m_s": self.drag_loss,
             "steering_loss_m_s": self.steering_loss,
             "pressure_loss_m_s": self.pressure_loss,
+            "pad_loss_m_s": self.pad_loss,
             "achieved_m_s": self.achieved,
             "closure_m_s": self.closure,
         }
@@ -187,6 +236,9 @@ class StageFlight:
     burnout_altitude: float
     burnout_speed: float
     burnout_mach: float
+    ignition_vertical_speed: float = math.nan
+    ignition_air_speed: float = math.nan
+    ignition_tilt: float = math.nan
 
     def to_dict(self) -> dict[str, Any]:
         """Fields keyed with SI unit suffixes."""
@@ -197,6 +249,9 @@ class StageFlight:
             "burnout_altitude_m": self.burnout_altitude,
             "burnout_speed_m_s": self.burnout_speed,
             "burnout_mach": self.burnout_mach,
+            "ignition_vertical_speed_m_s": self.ignition_vertical_speed,
+            "ignition_air_speed_m_s": self.ignition_air_speed,
+            "ignition_tilt_deg": math.degrees(self.ignition_tilt),
         }
 
 
@@ -288,6 +343,11 @@ class FlightResult:
     rail_exit_speed: float
     orbit: Orbit | None
     compute_time: float
+    apogee_downrange: float = math.nan
+    apogee_crossrange: float = math.nan
+    landing: tuple[float, float] | None = None
+    """Where the flight came down, (east, north) from the site [m], when it flew to the
+    ground."""
 
     @property
     def total(self) -> LossLedger:
@@ -303,6 +363,10 @@ class FlightResult:
             "status": self.status,
             "apogee_m": self.apogee,
             "apogee_time_s": self.apogee_time,
+            "apogee_downrange_m": self.apogee_downrange,
+            "apogee_crossrange_m": self.apogee_crossrange,
+            "landing_east_m": None if self.landing is None else self.landing[0],
+            "landing_north_m": None if self.landing is None else self.landing[1],
             "max_dynamic_pressure_pa": self.max_dynamic_pressure,
             "max_mach": self.max_mach,
             "max_acceleration_g": self.max_acceleration / STANDARD_GRAVITY,
@@ -310,10 +374,12 @@ class FlightResult:
             "stages": [row.to_dict() for row in self.stages],
             "ledger": {
                 "ideal_m_s": total.ideal,
+                "rotation_credit_m_s": total.rotation_credit,
                 "gravity_loss_m_s": total.gravity_loss,
                 "drag_loss_m_s": total.drag_loss,
                 "steering_loss_m_s": total.steering_loss,
                 "pressure_loss_m_s": total.pressure_loss,
+                "pad_loss_m_s": total.pad_loss,
                 "achieved_m_s": total.achieved,
                 "closure_m_s": total.closure,
                 "segments": [row.to_dict() for row in self.ledger[:-1]],
@@ -326,6 +392,7 @@ class FlightResult:
                 "apogee_altitude_m": self.orbit.apogee_altitude,
                 "eccentricity": self.orbit.eccentricity,
                 "semi_major_axis_m": self.orbit.semi_major_axis,
+                "inclination_deg": math.degrees(self.orbit.inclination),
             },
             "target": self.verdict.target,
             "achieved": self.verdict.achieved,
@@ -345,30 +412,14 @@ class FlightResult:
         }
 
 
-def _flown_stages(mission: Mission) -> int:
+def flown_stages(mission: Mission) -> int:
+    """How many stages (from the bottom) fly the first leg; all when there are no legs."""
     if not mission.legs:
         return len(mission.vehicle.stages)
     return mission.vehicle.stage_index(mission.legs[0].stages[-1]) + 1
 
 
-def _altitude(core: flight.FlightCore, y: FloatArray) -> FloatArray:
-    if core.round_earth:
-        return np.hypot(y[flight.X], y[flight.Y]) - EARTH_EQUATORIAL_RADIUS - core.site_altitude
-    return y[flight.Y]
-
-
-def _ground_speed(core: flight.FlightCore, y: FloatArray) -> FloatArray:
-    """Speed relative to the rotating Earth (no wind) [m/s]."""
-    model = flight._Model(core, flight._initial(core)[1])
-    ground_x, ground_y = model.ground_velocity(y)
-    return np.hypot(ground_x, ground_y)
-
-
-def _speed(y: FloatArray) -> FloatArray:
-    return np.hypot(y[flight.VX], y[flight.VY])
-
-
-class _Target:
+class Target:
     """The first leg's target as a function of a batch's outcome (target terms, SI)."""
 
     def __init__(self, mission: Mission, core: flight.FlightCore) -> None:
@@ -378,6 +429,7 @@ class _Target:
         self.kind = leg.target if leg is not None else ""
         self.required = math.nan
         self.dimension = ""
+        self.later_need = 0.0
         if leg is None:
             return
         if self.kind == "apogee":
@@ -392,18 +444,17 @@ class _Target:
 
     @property
     def judged(self) -> bool:
+        """True when the flight can judge the first leg's target."""
         return self.kind in ("apogee", "burnout_speed", "circular_orbit")
 
     def achieved(self, core: flight.FlightCore, outcome: flight.Outcome) -> FloatArray:
         """The achieved value per sample in target terms (NaN where not reached)."""
         if self.kind == "apogee":
-            times, states = outcome.events["apogee"]
-            return np.where(np.isfinite(times), _altitude(core, states), np.nan)
+            return outcome.value("apogee", "altitude")
         if self.kind == "burnout_speed":
-            _, states = outcome.events[f"burnout:{core.stages - 1}"]
-            return _ground_speed(core, states)
+            return outcome.value(f"burnout:{core.stages - 1}", "ground_speed")
         if self.kind == "circular_orbit":
-            return _altitude(core, outcome.final_state) + core.site_altitude
+            return outcome.final("altitude_sea_level")
         return np.full(core.n, math.nan)
 
     def metric(self, core: flight.FlightCore, outcome: flight.Outcome) -> FloatArray:
@@ -416,28 +467,19 @@ class _Target:
     def orbit_margin(self, core: flight.FlightCore, outcome: flight.Outcome) -> FloatArray:
         """Delta-v left after cutoff beyond the later legs' need [m/s]; negative if short."""
         last = core.stages - 1
-        state = outcome.final_state
-        mass_end = state[flight.M]
-        ignition_mass = outcome.events[f"ignition:{last}"][1][flight.M]
+        state = outcome.state("final")
+        mass_end = state[:, layout.Y_M]
+        ignition_mass = outcome.state(f"ignition:{last}")[:, layout.Y_M]
         burnt = ignition_mass - mass_end
         remaining = np.maximum(core.usable[last] - burnt, 0.0)
         isp_g0 = core.thrust_vacuum[last] / np.maximum(core.mass_flow[last], 1e-30)
         left = isp_g0 * np.log(mass_end / (mass_end - remaining))
-        perigee = _perigee_altitude(state)
+        perigee = perigee_altitude(state)
         reached = (outcome.status == "orbit") & (perigee >= MIN_PERIGEE)
-        energy = 0.5 * _speed(state) ** 2 - EARTH_MU / np.hypot(state[flight.X], state[flight.Y])
-        deficit = (energy - core.cutoff_energy) / np.maximum(_speed(state), 1.0)
+        speed = outcome.final("inertial_speed")
+        energy = outcome.final("energy")
+        deficit = (energy - core.cutoff_energy) / np.maximum(speed, 1.0)
         return np.where(reached, left - self.later_need, np.minimum(deficit, 0.0) - self.later_need)
-
-
-def _perigee_altitude(state: FloatArray) -> FloatArray:
-    """Perigee altitude of the osculating orbit per sample [m] (vectorised)."""
-    x, y, vx, vy = state[flight.X], state[flight.Y], state[flight.VX], state[flight.VY]
-    radius = np.hypot(x, y)
-    energy = 0.5 * (vx**2 + vy**2) - EARTH_MU / radius
-    momentum = x * vy - y * vx
-    eccentricity = np.sqrt(np.maximum(0.0, 1.0 + 2.0 * energy * momentum**2 / EARTH_MU**2))
-    return momentum**2 / EARTH_MU / (1.0 + eccentricity) - EARTH_EQUATORIAL_RADIUS
 
 
 def tune_kick(
@@ -450,8 +492,8 @@ def tune_kick(
     ``MIN_PERIGEE``. Returns (angle [rad], delta-v left beyond the later legs [m/s]);
     the margin is -inf when no angle reaches the orbit.
     """
-    core = flight.build_core(mission, _flown_stages(mission))
-    target = _Target(mission, core)
+    core = flight.build_core(mission, flown_stages(mission))
+    target = Target(mission, core)
     if target.kind != "circular_orbit":
         raise ValueError("kick tuning is for circular_orbit targets")
     angles = np.linspace(
@@ -461,15 +503,17 @@ def tune_kick(
     batch.kick_angle = angles
     outcome = flight.simulate(batch)
     margins = target.metric(batch, outcome)
-    reached = (outcome.status == "orbit") & (_perigee_altitude(outcome.final_state) >= MIN_PERIGEE)
+    reached = (outcome.status == "orbit") & (
+        perigee_altitude(outcome.state("final")) >= MIN_PERIGEE
+    )
     if not np.any(reached):
         return float(core.kick_angle[0]), -math.inf
     best = int(np.argmax(np.where(reached, margins, -np.inf)))
     return float(angles[best]), float(margins[best])
 
 
-def _stack_delta_v(core: flight.FlightCore, added: float) -> float:
-    """Ideal delta-v of the flown stages with ``added`` payload mass [m/s]."""
+def stack_delta_v(core: flight.FlightCore, added: float) -> float:
+    """Ideal delta-v of the flown stages of sample 0 with ``added`` payload mass [m/s]."""
     mass = float(core.mass_initial[0]) + added
     total = 0.0
     for k in range(core.stages):
@@ -484,7 +528,7 @@ def _stack_delta_v(core: flight.FlightCore, added: float) -> float:
 
 
 def _payload_margin(
-    core: flight.FlightCore, target: _Target, nominal: float, payload: float, rtol: float
+    core: flight.FlightCore, target: Target, nominal: float, payload: float, rtol: float
 ) -> tuple[float, float, str]:
     """Payload mass that can be added (negative: removed) so the target is just met.
 
@@ -513,7 +557,7 @@ def _payload_margin(
             note = "more than" if nominal >= 0 else "even with all of it"
             return (
                 edge,
-                _stack_delta_v(core, 0.0) - _stack_delta_v(core, edge),
+                stack_delta_v(core, 0.0) - stack_delta_v(core, edge),
                 (f"no root in the searched range: {note} {abs(edge):.4g} kg of payload"),
             )
         i = sign_change[0]
@@ -524,7 +568,7 @@ def _payload_margin(
     i = i[0] if i.size else 0
     a, b, fa, fb = trials[i], trials[i + 1], values[i], values[i + 1]
     mass = a - fa * (b - a) / (fb - fa) if fb != fa else a
-    cost = _stack_delta_v(core, 0.0) - _stack_delta_v(core, float(mass))
+    cost = stack_delta_v(core, 0.0) - stack_delta_v(core, float(mass))
     return (
         float(mass),
         cost,
@@ -532,55 +576,60 @@ def _payload_margin(
     )
 
 
-def _event(
-    name: str, t: float, y: FloatArray, model: flight._Model, mission: Mission
-) -> FlightEvent:
-    described = model.describe(np.array([t]), y[:, None])
+def _event(outcome: flight.Outcome, name: str, key: str) -> FlightEvent | None:
+    """The event ``key`` of sample 0 as a row, or None if it did not happen."""
+    if not outcome.happened(key)[0]:
+        return None
+
+    def value(quantity: str) -> float:
+        return float(outcome.value(key, quantity)[0])
+
     return FlightEvent(
         name=name,
-        time=t,
-        altitude=float(described["altitude"][0]),
-        speed=float(described["ground_speed"][0]),
-        inertial_speed=float(described["speed"][0]),
-        mach=float(described["mach"][0]),
-        acceleration=float(described["acceleration"][0]),
-        dynamic_pressure=float(described["dynamic_pressure"][0]),
+        time=float(outcome.time(key)[0]),
+        altitude=value("altitude"),
+        speed=value("ground_speed"),
+        inertial_speed=value("inertial_speed"),
+        mach=value("mach"),
+        acceleration=value("acceleration"),
+        dynamic_pressure=value("dynamic_pressure"),
+        downrange=value("downrange"),
+        crossrange=value("crossrange"),
     )
 
 
 def _trajectory(core: flight.FlightCore, outcome: flight.Outcome) -> pd.DataFrame:
+    """The recorded steps of sample 0 as a table (SI, unit suffixes in the column names)."""
     import pandas as pd
 
-    points = outcome.trajectory
-    count = len(points)
-    times = np.array([p[0] for p in points])
-    states = np.stack([p[1] for p in points], axis=1)
-    phases = [p[3] for p in points]
-    merged = flight._Phase(
-        **{
-            name: np.concatenate([getattr(ph, name) for ph in phases])
-            for name in phases[0].__dict__
-        }
-    )
-    model = flight._Model(core.take(np.zeros(count, dtype=np.int64)), merged)
-    described = model.describe(times, states)
-    frame = pd.DataFrame(
+    path = outcome.trajectory
+    assert path is not None
+    stage = np.searchsorted(_separation_times(outcome), path.time, side="right")
+    names = [core.stage_names[min(int(k), core.stages - 1)] for k in stage]
+    return pd.DataFrame(
         {
-            "time_s": times,
-            "altitude_m": described["altitude"],
-            "downrange_m": described["downrange"],
-            "speed_m_s": described["ground_speed"],
-            "inertial_speed_m_s": described["speed"],
-            "vertical_speed_m_s": described["vertical_speed"],
-            "mach": described["mach"],
-            "dynamic_pressure_pa": described["dynamic_pressure"],
-            "acceleration_g": described["acceleration"] / STANDARD_GRAVITY,
-            "flight_path_angle_deg": np.degrees(described["flight_path_angle"]),
-            "mass_kg": described["mass"],
-            "stage": [core.stage_names[int(k)] for k in merged.stage],
+            "time_s": path.time,
+            "altitude_m": path["altitude"],
+            "downrange_m": path["downrange"],
+            "crossrange_m": path["crossrange"],
+            "east_m": path["east"],
+            "north_m": path["north"],
+            "speed_m_s": path["ground_speed"],
+            "inertial_speed_m_s": path["inertial_speed"],
+            "vertical_speed_m_s": path["vertical_speed"],
+            "mach": path["mach"],
+            "dynamic_pressure_pa": path["dynamic_pressure"],
+            "acceleration_g": path["acceleration"] / STANDARD_GRAVITY,
+            "flight_path_angle_deg": np.degrees(path["flight_path_angle"]),
+            "mass_kg": path["mass"],
+            "stage": names,
         }
     )
-    return frame
+
+
+def _separation_times(outcome: flight.Outcome) -> FloatArray:
+    times = [float(outcome.time(f"separation:{k}")[0]) for k in range(outcome.stages - 1)]
+    return np.array([t if math.isfinite(t) else math.inf for t in times])
 
 
 def fly(mission: Mission, rtol: float = 1e-8, margin: bool = True) -> FlightResult:
@@ -604,11 +653,16 @@ def fly(mission: Mission, rtol: float = 1e-8, margin: bool = True) -> FlightResu
 
     Notes
     -----
-    Ideal delta-v is the integral of vacuum thrust over mass; gravity loss the integral
-    of g sin(flight-path angle); drag loss the integral of the drag's component along the
-    velocity over mass; steering loss the integral of (thrust / mass)(1 - cos(angle
-    between thrust and velocity)); back-pressure loss the integral of ambient pressure
-    times exit area over mass. Achieved is the change of inertial speed.
+    Ideal delta-v is the integral of vacuum thrust over mass. While the vehicle is in the
+    atmosphere, the losses are taken along its velocity relative to the rotating Earth,
+    as the textbooks take them [1]: gravity loss the integral of g sin(flight-path
+    angle), drag loss the integral of the drag's component along the velocity over
+    mass, steering loss the integral of (thrust / mass)(1 - cos(angle between thrust
+    and velocity)), back-pressure loss the integral of ambient pressure times exit area
+    over mass. Once the vehicle leaves the atmosphere the same integrals follow the
+    inertial velocity, and the difference of the inertial and Earth-relative speeds at
+    that moment (with the small centrifugal term before it) is the Earth-rotation
+    credit. Thrust spent while the pad still holds the vehicle is the pad loss.
 
     References
     ----------
@@ -616,95 +670,84 @@ def fly(mission: Mission, rtol: float = 1e-8, margin: bool = True) -> FlightResu
        section 11.2, eq. 11.8 and following (the delta-v losses of a launch).
     """
     started = _time.perf_counter()
-    core = flight.build_core(mission, _flown_stages(mission))
+    core = flight.build_core(mission, flown_stages(mission))
     outcome = flight.simulate(core, rtol=rtol, record=True)
     compute_time = _time.perf_counter() - started
-    events: list[FlightEvent] = []
-
-    def add(name: str, key: str) -> None:
-        times, states = outcome.events[key]
-        if np.isfinite(times[0]):
-            events.append(
-                _event(
-                    name,
-                    float(times[0]),
-                    states[:, 0],
-                    _phase_model(core, outcome, float(times[0])),
-                    mission,
-                )
-            )
-
-    add("liftoff (ignition)", "ignition:0")
-    add("rail exit", "rail_exit")
+    events: list[FlightEvent | None] = [
+        _event(outcome, "liftoff", "liftoff"),
+        _event(outcome, "rail exit", "rail_exit"),
+    ]
     for k, name in enumerate(core.stage_names):
         if k > 0:
-            add(f"{name} ignition", f"ignition:{k}")
-        add(f"{name} burnout", f"burnout:{k}")
+            events.append(_event(outcome, f"{name} ignition", f"ignition:{k}"))
+        events.append(_event(outcome, f"{name} burnout", f"burnout:{k}"))
         if k < core.stages - 1:
-            add(f"{name} separation", f"separation:{k}")
-    add("engine cutoff (orbit)", "cutoff")
-    for key, label in (
-        ("dynamic_pressure", "max dynamic pressure"),
-        ("mach", "max Mach"),
-        ("acceleration", "max acceleration"),
-    ):
-        times, values = outcome.maxima[key]
-        if np.isfinite(times[0]):
-            t = float(times[0])
-            event = _event(label, t, _state_at(outcome, t), _phase_model(core, outcome, t), mission)
-            # the maximum as tracked (a burnout's acceleration is the value just before it)
-            if key == "acceleration":
-                event = dataclasses.replace(event, acceleration=float(values[0]))
-            events.append(event)
-    add("apogee", "apogee")
-    add("ground impact", "ground")
-    events.sort(key=lambda event: event.time)
+            events.append(_event(outcome, f"{name} separation", f"separation:{k}"))
+    events += [
+        _event(outcome, "engine cutoff (orbit)", "cutoff"),
+        _event(outcome, "max dynamic pressure", "max_dynamic_pressure"),
+        _event(outcome, "max Mach", "max_mach"),
+        _event(outcome, "max acceleration", "max_acceleration"),
+        _event(outcome, "leaves the atmosphere", "left_atmosphere"),
+        _event(outcome, "apogee", "apogee"),
+        _event(outcome, "ground impact", "ground"),
+    ]
+    rows = sorted((event for event in events if event is not None), key=lambda e: e.time)
 
     ledger = _ledger(core, outcome)
     stages = []
     for k, name in enumerate(core.stage_names):
-        t_ign = outcome.events[f"ignition:{k}"][0][0]
-        t_bo, y_bo = outcome.events[f"burnout:{k}"]
-        burnout = next((e for e in events if e.name == f"{name} burnout"), None)
+        burnout = f"burnout:{k}"
+        ignition = f"ignition:{k}"
         stages.append(
             StageFlight(
                 name=name,
-                ignition_time=float(t_ign),
-                burnout_time=float(t_bo[0]),
-                burnout_altitude=float(_altitude(core, y_bo)[0]),
-                burnout_speed=float(_ground_speed(core, y_bo)[0]),
-                burnout_mach=burnout.mach if burnout else math.nan,
+                ignition_time=float(outcome.time(ignition)[0]),
+                burnout_time=float(outcome.time(burnout)[0]),
+                burnout_altitude=float(outcome.value(burnout, "altitude")[0]),
+                burnout_speed=float(outcome.value(burnout, "ground_speed")[0]),
+                burnout_mach=float(outcome.value(burnout, "mach")[0]),
+                ignition_vertical_speed=float(outcome.value(ignition, "vertical_speed")[0]),
+                ignition_air_speed=float(outcome.value(ignition, "air_speed")[0]),
+                ignition_tilt=float(outcome.value(ignition, "tilt")[0]),
             )
         )
-    target = _Target(mission, core)
+    target = Target(mission, core)
     status = str(outcome.status[0])
     orbit = None
     if core.round_earth and status in ("orbit", "burnout"):
-        y = outcome.final_state[:, 0]
-        orbit = osculating_orbit(y[flight.X], y[flight.Y], y[flight.VX], y[flight.VY])
+        final = outcome.state("final")[0]
+        orbit = osculating_orbit(
+            final[layout.Y_R : layout.Y_R + 3], final[layout.Y_V : layout.Y_V + 3]
+        )
     verdict = _verdict(mission, core, outcome, target, margin, rtol)
-    apogee_t, apogee_y = outcome.events["apogee"]
-    rail_t, rail_y = outcome.events["rail_exit"]
+    landing = None
+    if outcome.happened("ground")[0]:
+        landing = (
+            float(outcome.value("ground", "east")[0]),
+            float(outcome.value("ground", "north")[0]),
+        )
     result = FlightResult(
         mission=mission,
         outcome=outcome,
         trajectory=_trajectory(core, outcome),
-        events=Rows(events),
+        events=Rows(rows),
         ledger=Rows(ledger),
         stages=Rows(stages),
         verdict=verdict,
         findings=(),
         status=status,
-        apogee=float(_altitude(core, apogee_y)[0]) if np.isfinite(apogee_t[0]) else math.nan,
-        apogee_time=float(apogee_t[0]),
-        max_dynamic_pressure=float(outcome.maxima["dynamic_pressure"][1][0]),
-        max_mach=float(outcome.maxima["mach"][1][0]),
-        max_acceleration=float(outcome.maxima["acceleration"][1][0]),
-        rail_exit_speed=float(_ground_speed(core, rail_y)[0])
-        if np.isfinite(rail_t[0])
-        else math.nan,
+        apogee=float(outcome.value("apogee", "altitude")[0]),
+        apogee_time=float(outcome.time("apogee")[0]),
+        apogee_downrange=float(outcome.value("apogee", "downrange")[0]),
+        apogee_crossrange=float(outcome.value("apogee", "crossrange")[0]),
+        max_dynamic_pressure=float(outcome.value("max_dynamic_pressure", "dynamic_pressure")[0]),
+        max_mach=float(outcome.value("max_mach", "mach")[0]),
+        max_acceleration=float(outcome.value("max_acceleration", "acceleration")[0]),
+        rail_exit_speed=float(outcome.value("rail_exit", "ground_speed")[0]),
         orbit=orbit,
         compute_time=compute_time,
+        landing=landing,
     )
     # the liftoff thrust-to-weight rule is the budget's (it knows the propellant family's
     # usual minimum); it is a flight warning too
@@ -713,42 +756,31 @@ def fly(mission: Mission, rtol: float = 1e-8, margin: bool = True) -> FlightResu
     return result
 
 
-def _state_at(outcome: flight.Outcome, t: float) -> FloatArray:
-    """State of sample 0 at time t, by Hermite interpolation between recorded steps."""
-    from propulsion.integrator import hermite
-
-    times = np.array([p[0] for p in outcome.trajectory])
-    i = int(np.clip(np.searchsorted(times, t) - 1, 0, len(times) - 2))
-    t0, y0, f0, _ = outcome.trajectory[i]
-    t1, y1, f1, _ = outcome.trajectory[i + 1]
-    h = t1 - t0
-    if h <= 0:
-        return y1
-    theta = np.array([(t - t0) / h])
-    return hermite(y0[:, None], y1[:, None], f0[:, None], f1[:, None], np.array([h]), theta)[:, 0]
-
-
-def _phase_model(core: flight.FlightCore, outcome: flight.Outcome, t: float) -> flight._Model:
-    """A model of sample 0 with the phase it had at time t (for derived quantities)."""
-    times = np.array([p[0] for p in outcome.trajectory])
-    i = int(np.clip(np.searchsorted(times, t, side="right") - 1, 0, len(times) - 1))
-    return flight._Model(core.take(np.zeros(1, dtype=np.int64)), outcome.trajectory[i][3])
-
-
 def _ledger(core: flight.FlightCore, outcome: flight.Outcome) -> list[LossLedger]:
-    marks = outcome.ledger_marks[:, :, 0]
-    speeds = outcome.speed_marks[:, 0]
+    terms, speeds = outcome.ledger_marks()
+    marks = terms[:, 0, :]
+    speed = speeds[:, 0]
     rows = []
-    boundaries = [k for k in range(core.stages + 1) if np.isfinite(speeds[k])]
-    for a, b in itertools.pairwise(boundaries):
+    boundaries = [k for k in range(core.stages + 1) if np.isfinite(speed[k])]
+
+    def row(name: str, a: int, b: int) -> LossLedger:
         d = marks[b] - marks[a]
-        rows.append(
-            LossLedger(core.stage_names[a], d[0], d[1], d[2], d[3], d[4], speeds[b] - speeds[a])
+        named = dict(zip(layout.LEDGER_TERMS, d, strict=True))
+        return LossLedger(
+            segment=name,
+            ideal=float(named["ideal"]),
+            gravity_loss=float(named["gravity"]),
+            drag_loss=float(named["drag"]),
+            steering_loss=float(named["steering"]),
+            pressure_loss=float(named["pressure"]),
+            pad_loss=float(named["pad"]),
+            rotation_credit=float(named["rotation"]),
+            achieved=float(speed[b] - speed[a]),
         )
-    d = marks[core.stages] - marks[0]
-    rows.append(
-        LossLedger("whole flight", d[0], d[1], d[2], d[3], d[4], speeds[core.stages] - speeds[0])
-    )
+
+    for a, b in itertools.pairwise(boundaries):
+        rows.append(row(core.stage_names[a], a, b))
+    rows.append(row("whole flight", 0, core.stages))
     return rows
 
 
@@ -756,7 +788,7 @@ def _verdict(
     mission: Mission,
     core: flight.FlightCore,
     outcome: flight.Outcome,
-    target: _Target,
+    target: Target,
     margin: bool,
     rtol: float,
 ) -> FlightVerdict:
@@ -828,9 +860,18 @@ def _findings(result: FlightResult, core: flight.FlightCore) -> list[Finding]:
         findings.append(
             Finding(
                 "flight",
-                f"the flight did not reach its end within {core.max_time:g} s",
+                f"the flight did not reach its end within {float(core.max_time[0]):g} s",
                 "flights end at apogee, orbit or impact",
                 "set [flight] max_time to allow more",
+            )
+        )
+    if result.status == "step failure":
+        findings.append(
+            Finding(
+                "flight",
+                "the integrator could not continue (the step size fell to nothing)",
+                "a flight must be integrable to its end",
+                "check the vehicle's masses, thrust and drag for impossible values",
             )
         )
     if math.isfinite(result.rail_exit_speed) and result.rail_exit_speed < RAIL_EXIT_SPEED_MIN:
@@ -843,6 +884,34 @@ def _findings(result: FlightResult, core: flight.FlightCore) -> list[Finding]:
                 "common practice, no source",
             )
         )
+    guided = core.guidance != "gravity_turn"
+    hold = float(core.hold_speed[0])
+    for k, stage in enumerate(result.stages):
+        if k == 0 or not math.isfinite(stage.ignition_time) or (guided and core.steered[k]):
+            continue
+        problems = []
+        if stage.ignition_vertical_speed < 0:
+            problems.append(f"while descending ({stage.ignition_vertical_speed:.1f} m/s)")
+        if stage.ignition_air_speed < hold:
+            problems.append(
+                f"below the {hold:g} m/s of air speed that steers it "
+                f"({stage.ignition_air_speed:.1f} m/s)"
+            )
+        if stage.ignition_tilt > IGNITION_TILT_MAX:
+            problems.append(
+                f"tilted {math.degrees(stage.ignition_tilt):.0f} deg from vertical "
+                f"(limit {math.degrees(IGNITION_TILT_MAX):.0f} deg)"
+            )
+        if problems:
+            findings.append(
+                Finding(
+                    "ignition",
+                    f"{stage.name} lights " + ", ".join(problems),
+                    "an unguided upper stage should light rising, fast enough to steer, "
+                    f"and within {math.degrees(IGNITION_TILT_MAX):.0f} deg of vertical",
+                    "common practice in flight-safety codes, no source",
+                )
+            )
     if result.max_mach >= TRANSONIC_MACH:
         findings.append(
             Finding(
@@ -884,7 +953,7 @@ def _findings(result: FlightResult, core: flight.FlightCore) -> list[Finding]:
             Finding(
                 "ledger",
                 f"the ledger closes only to {total.closure:.3g} m/s",
-                "ideal - losses - achieved = 0",
+                "ideal + credit - losses - achieved = 0",
                 "definition of the ledger",
             )
         )

@@ -44,6 +44,7 @@ __all__ = [
     "density_pressure_sound",
     "geometric_altitude",
     "geopotential_altitude",
+    "layer_table",
     "ussa1976",
 ]
 
@@ -127,6 +128,17 @@ _BASE_TEMPERATURE, _BASE_PRESSURE, _COEFFICIENTS = _layer_coefficients()
 # Upper edges of the layers for np.searchsorted(side="left"): H equal to an edge belongs to the
 # layer below it (the profile is continuous there), H above 86 km (and NaN) to the last row.
 _LAYER_TOPS = np.array([*_BASE_GEOPOTENTIAL[1:], _TOP_GEOPOTENTIAL])
+
+
+def layer_table() -> tuple[FloatArray, FloatArray]:
+    """The standard's layers as the flight kernel reads them: (tops, rows).
+
+    ``tops`` holds the geopotential altitude [m'] where each of the seven layers ends (the
+    last one at 86 km geometric); ``rows`` (5, 8) holds A, L, C, K, E of each layer, as in
+    :func:`density_pressure_sound`, and an eighth column for everything above 86 km. Copies:
+    the caller may change them.
+    """
+    return _LAYER_TOPS.copy(), _COEFFICIENTS.copy()
 
 
 class AtmosphereState(NamedTuple):

@@ -36,6 +36,15 @@ EARTH_MU: float = 3.986004418e14
 # Source: NIMA TR8350.2, 3rd ed. (2000), Table 3.1 (recalled from memory).
 EARTH_ROTATION_RATE: float = 7.292115e-5
 
+# Flattening of the WGS 84 ellipsoid, 1 / 298.257223563, defining parameter.
+# Source: NIMA TR8350.2, 3rd ed. (2000), Table 3.1 (recalled from memory).
+EARTH_FLATTENING: float = 1.0 / 298.257223563
+
+# Second-degree zonal harmonic J2 of the WGS 84 gravity model (unnormalised; the normalised
+# coefficient is C20 = -4.84166774985e-4, and J2 = -sqrt(5) C20).
+# Source: NIMA TR8350.2, 3rd ed. (2000), Table 3.1 and section 5 (recalled from memory).
+EARTH_J2: float = 1.08262982131e-3
+
 # --- U.S. Standard Atmosphere, 1976 ----------------------------------------------------------
 # Source for the whole block: U.S. Standard Atmosphere, 1976, NOAA-S/T 76-1562, U.S. Government
 # Printing Office, Washington D.C. (values recalled from memory). The standard states R* and M0

@@ -62,19 +62,41 @@ class LaunchSite:
     wind_altitude: tuple[float, ...] = ()
     wind_speed: tuple[float, ...] = ()
     wind_offset: float = 0.0
+    wind_from: tuple[float, ...] = ()
+    """Direction each wind row blows from, clockwise from north [rad]; NaN for a row
+    without a direction, which blows along the launch azimuth (negative: against it)."""
 
     @property
     def rotation(self) -> bool:
         """True when latitude and azimuth are given: the flight uses Earth's rotation."""
         return self.latitude is not None and self.azimuth is not None
 
+    def wind_components(self) -> tuple[tuple[float, ...], tuple[float, ...], tuple[float, ...]]:
+        """The wind profile as (height above the site [m], east [m/s], north [m/s])."""
+        azimuth = self.azimuth if self.azimuth is not None else 0.0
+        east: list[float] = []
+        north: list[float] = []
+        directions = self.wind_from or (math.nan,) * len(self.wind_speed)
+        for speed, source in zip(self.wind_speed, directions, strict=True):
+            if math.isnan(source):
+                east.append(speed * math.sin(azimuth))
+                north.append(speed * math.cos(azimuth))
+            else:
+                # blowing from ``source``: towards the opposite direction
+                east.append(-speed * math.sin(source))
+                north.append(-speed * math.cos(source))
+        return self.wind_altitude, tuple(east), tuple(north)
+
 
 @dataclass(frozen=True)
 class FlightSettings:
     """How `fly` integrates the ascent (SI: s, m/s, rad).
 
-    ``earth`` is ``"round"`` (inverse-square gravity, spherical Earth) or ``"flat"``
-    (uniform standard gravity over a flat Earth, for checks against closed forms).
+    ``earth`` is ``"round"`` (inverse-square gravity, spherical Earth of the WGS 84
+    equatorial radius), ``"ellipsoid"`` (the WGS 84 ellipsoid with J2 gravity) or
+    ``"flat"`` (uniform standard gravity over a flat Earth, for small flights and checks
+    against closed forms). Below ``hold_speed`` of air speed the thrust holds its
+    direction instead of following the air-relative velocity.
     ``stop_at`` is ``"apogee"`` or ``"ground"``. The pitch kick tilts the thrust from the
     launch direction by ``pitch_kick_angle`` over ``pitch_kick_duration``, starting at
     ``pitch_kick_time`` (or when the speed reaches ``pitch_kick_speed``). ``guidance`` is
@@ -89,6 +111,7 @@ class FlightSettings:
     pitch_kick_speed: float | None = None
     pitch_kick_duration: float = 1.0
     guidance: str = "gravity_turn"
+    hold_speed: float = 10.0
 
 
 @dataclass(frozen=True)
@@ -423,6 +446,7 @@ _FLIGHT = {
     "pitch_kick_speed",
     "pitch_kick_duration",
     "guidance",
+    "hold_attitude_below",
 }
 _MISSION = {"name", "description"}
 _LAUNCH = {
@@ -591,12 +615,13 @@ class _Builder:
             high=90 * degree,
             expected="an angle above the horizon, from 0 deg to 90 deg",
         )
-        wind_altitude, wind_speed = self._wind(table)
+        wind_altitude, wind_speed, wind_from = self._wind(table)
         wind_offset = table.quantity("wind_speed", "speed", default=0.0, low=-200.0, high=200.0)
         return LaunchSite(
             wind_offset=float(wind_offset or 0.0),
             wind_altitude=wind_altitude,
             wind_speed=wind_speed,
+            wind_from=wind_from,
             altitude=float(altitude or 0.0),
             latitude=latitude,
             azimuth=azimuth,
@@ -676,42 +701,64 @@ class _Builder:
             )
         return tuple(out)
 
-    def _wind(self, table: _Table) -> tuple[tuple[float, ...], tuple[float, ...]]:
+    def _wind(
+        self, table: _Table
+    ) -> tuple[tuple[float, ...], tuple[float, ...], tuple[float, ...]]:
         if not table.has("wind"):
-            return (), ()
+            return (), (), ()
         rows = table.data["wind"]
         expected = (
-            'a list of [altitude, speed] pairs, for example [["0 m", "3 m/s"], ["1 km", "8 m/s"]]'
+            "a list of [height, speed, direction it blows from] rows, for example "
+            '[["0 m", "3 m/s", "270 deg"], ["1 km", "8 m/s", "250 deg"]] '
+            "(a row without a direction blows along the launch azimuth)"
         )
         if not isinstance(rows, list) or not rows:
             raise table.error("wind", f"is {_kind(rows)}", expected)
         altitudes: list[float] = []
         speeds: list[float] = []
+        directions: list[float] = []
         for number, row in enumerate(rows, start=1):
-            if not (isinstance(row, list) and len(row) == 2):
+            if not (isinstance(row, list) and len(row) in (2, 3)):
                 raise table.error("wind", f"row {number} is {_kind(row)}", expected)
-            pair = _Table(
-                self, {"altitude": row[0], "speed": row[1]}, table.path, {"altitude", "speed"}
-            )
+            values = {"altitude": row[0], "speed": row[1]}
+            if len(row) == 3:
+                values["direction"] = row[2]
+            cells = _Table(self, values, table.path, {"altitude", "speed", "direction"})
             try:
-                altitude = float(pair.quantity("altitude", "length", required=True, low=0.0) or 0.0)
-                speed = float(
-                    pair.quantity("speed", "speed", required=True, low=-200.0, high=200.0) or 0.0
+                altitude = float(
+                    cells.quantity("altitude", "length", required=True, low=0.0) or 0.0
                 )
+                if len(row) == 3:
+                    speed = float(
+                        cells.quantity("speed", "speed", required=True, low=0.0, high=200.0) or 0.0
+                    )
+                    direction = float(
+                        cells.quantity(
+                            "direction", "angle", required=True, low=0.0, high=2 * math.pi
+                        )
+                        or 0.0
+                    )
+                else:
+                    speed = float(
+                        cells.quantity("speed", "speed", required=True, low=-200.0, high=200.0)
+                        or 0.0
+                    )
+                    direction = math.nan
             except MissionError as exc:
                 raise table.error("wind", f"row {number}: {exc.problem}", expected) from exc
             if altitudes and altitude <= altitudes[-1]:
-                raise table.error("wind", f"row {number}: altitudes must increase", expected)
+                raise table.error("wind", f"row {number}: heights must increase", expected)
             altitudes.append(altitude)
             speeds.append(speed)
-        return tuple(altitudes), tuple(speeds)
+            directions.append(direction)
+        return tuple(altitudes), tuple(speeds), tuple(directions)
 
     def _flight(self, table: _Table | None) -> FlightSettings:
         if table is None:
             return FlightSettings()
         earth = table.string("earth", default="round")
-        if earth not in ("round", "flat"):
-            raise table.error("earth", f"is {earth!r}", "'round' or 'flat'")
+        if earth not in ("round", "ellipsoid", "flat"):
+            raise table.error("earth", f"is {earth!r}", "'round', 'ellipsoid' or 'flat'")
         stop_at = table.string("stop_at", default="apogee")
         if stop_at not in ("apogee", "ground"):
             raise table.error("stop_at", f"is {stop_at!r}", "'apogee' or 'ground'")
@@ -760,6 +807,10 @@ class _Builder:
                 or 1.0
             ),
             guidance=guidance,
+            hold_speed=float(
+                table.quantity("hold_attitude_below", "speed", default=10.0, low=0.0, high=1e3)
+                or 0.0
+            ),
         )
 
     def _margins(self, table: _Table | None) -> Margins:

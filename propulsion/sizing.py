@@ -344,8 +344,8 @@ def size(
     # -- the flight simulation ------------------------------------------------------------
     def flight_quantity(value: float) -> tuple[float, float]:
         candidate = problem.mission_at(value)
-        core = flight.build_core(candidate, ascent._flown_stages(candidate))
-        target_ = ascent._Target(candidate, core)
+        core = flight.build_core(candidate, ascent.flown_stages(candidate))
+        target_ = ascent.Target(candidate, core)
         required = budget(candidate).verdict.required_margin
         if kind == "circular_orbit":
             # an open-loop pitch programme suits one vehicle only: re-tune the kick for
@@ -448,12 +448,12 @@ def _mass_for_delta_v(core: flight.FlightCore, delta_v: float) -> float:
 
     if delta_v <= 0:
         return 0.0
-    nominal = ascent._stack_delta_v(core, 0.0)
+    nominal = ascent.stack_delta_v(core, 0.0)
     if delta_v >= nominal:
         return math.inf
     high = float(core.mass_initial[0])
-    while nominal - ascent._stack_delta_v(core, high) < delta_v:
+    while nominal - ascent.stack_delta_v(core, high) < delta_v:
         high *= 2
     return float(
-        brentq(lambda m: nominal - ascent._stack_delta_v(core, m) - delta_v, 0.0, high, xtol=1e-12)
+        brentq(lambda m: nominal - ascent.stack_delta_v(core, m) - delta_v, 0.0, high, xtol=1e-12)
     )

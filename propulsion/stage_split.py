@@ -32,7 +32,7 @@ if TYPE_CHECKING:
 
 __all__ = ["SplitError", "SplitResult", "split"]
 
-FloatArray = flight.FloatArray
+FloatArray = flight.state.FloatArray
 
 
 class SplitError(RequestError):
@@ -290,7 +290,7 @@ def _loss_aware(
             0,
             "the loss-aware search handles one and two stages; the ideal split stands",
         )
-    base = flight.build_core(mission, ascent._flown_stages(mission))
+    base = flight.build_core(mission, ascent.flown_stages(mission))
     if base.stages != isp.size:
         return LossAwareSplit(
             False,
@@ -300,7 +300,7 @@ def _loss_aware(
             0,
             "the first leg does not fly every stage",
         )
-    target = ascent._Target(mission, base)
+    target = ascent.Target(mission, base)
     required_margin = budget(mission).verdict.required_margin
     c = isp * STANDARD_GRAVITY
     above_payload = float(base.mass_initial[0]) - sum(
@@ -371,7 +371,7 @@ def _loss_aware(
             flights += len(columns)
             metric = target.metric(core, outcome)
             if orbital:
-                perigee = ascent._perigee_altitude(outcome.final_state)
+                perigee = ascent.perigee_altitude(outcome.state("final"))
                 reached = (outcome.status == "orbit") & (perigee >= ascent.MIN_PERIGEE)
                 metric = np.where(reached, metric - required_margin, -1e9)
             per_total: dict[int, float] = {}

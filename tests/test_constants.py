@@ -30,6 +30,17 @@ def test_wgs84_defining_parameters() -> None:
     assert c.EARTH_ROTATION_RATE == 7292115e-11
 
 
+def test_wgs84_flattening_and_j2() -> None:
+    # NIMA TR8350.2, 3rd ed., Table 3.1: 1/f = 298.257223563 (defining parameter); the
+    # polar radius b = a (1 - f) = 6356752.3142 m is the table's derived value (from memory).
+    assert pytest.approx(298.257223563, rel=1e-15) == 1.0 / c.EARTH_FLATTENING
+    polar = c.EARTH_EQUATORIAL_RADIUS * (1.0 - c.EARTH_FLATTENING)
+    assert polar == pytest.approx(6356752.3142, abs=1e-4)
+    # J2 = -sqrt(5) * C20 with the normalised C20 = -4.84166774985e-4 (the same table,
+    # from memory): the unnormalised zonal coefficient of the gravity model.
+    assert pytest.approx(-math.sqrt(5.0) * -4.84166774985e-4, rel=1e-9) == c.EARTH_J2
+
+
 def test_geostationary_radius_from_wgs84() -> None:
     # A circular orbit whose angular rate equals the Earth's rotation rate has radius
     # (mu / omega^2)^(1/3). H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed.,
@@ -71,6 +82,6 @@ def test_ussa76_radius_lies_between_polar_and_equatorial_radius() -> None:
 
 def test_all_constants_are_floats() -> None:
     names = [name for name in dir(c) if name.isupper()]
-    assert len(names) == 12
+    assert len(names) == 14
     for name in names:
         assert isinstance(getattr(c, name), float), name

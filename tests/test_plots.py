@@ -284,13 +284,18 @@ def test_flight_ledger_bars_add_up_within_the_closure(
     figure = plots.flight_ledger_figure(flight, units)
     total = flight.total
     ideal = bar(figure, "ideal").get_height()
-    losses = [
-        bar(figure, gid) for gid in ("gravity_loss", "drag_loss", "steering_loss", "pressure_loss")
-    ]
+    gids = ["gravity_loss", "drag_loss", "steering_loss", "pressure_loss"]
+    # the booster's motor spends a little thrust before the rocket leaves the pad
+    assert total.pad_loss > 0
+    gids.append("pad_loss")
+    losses = [bar(figure, gid) for gid in gids]
     achieved = bar(figure, "achieved").get_height()
     assert ideal == pytest.approx(total.ideal * factor, rel=EXACT)
+    assert bar(figure, "pad_loss").get_height() == pytest.approx(total.pad_loss * factor, rel=EXACT)
     assert achieved == pytest.approx(total.achieved * factor, rel=EXACT, abs=1e-12)
-    # ideal - losses = achieved, up to the ledger's closure (integration error)
+    # ideal - losses = achieved, up to the ledger's closure (integration error); no
+    # Earth's rotation in this mission, so no credit bar
+    assert not any(p.get_gid() == "rotation_credit" for p in figure.axes[0].patches)
     closure = ideal - sum(rect.get_height() for rect in losses) - achieved
     assert abs(closure) <= abs(total.closure) * factor + 1e-9 * ideal
     # each loss hangs from where the one before it ended: a waterfall

@@ -682,9 +682,10 @@ def flight_ledger_figure(result: FlightResult, units: DisplayUnits) -> Figure:
     Returns
     -------
     matplotlib.figure.Figure
-        8 x 5 in at 100 dpi. Bars carry the gids ``ideal``, ``gravity_loss``,
-        ``drag_loss``, ``steering_loss``, ``pressure_loss``, ``achieved``, ``required``,
-        ``required_allowance`` and ``margin``.
+        8 x 5 in at 100 dpi. Bars carry the gids ``ideal``, ``rotation_credit`` (when
+        Earth's rotation gives something), ``gravity_loss``, ``drag_loss``,
+        ``steering_loss``, ``pressure_loss``, ``pad_loss`` (when thrust is spent on the
+        pad), ``achieved``, ``required``, ``required_allowance`` and ``margin``.
 
     References
     ----------
@@ -699,18 +700,23 @@ def flight_ledger_figure(result: FlightResult, units: DisplayUnits) -> Figure:
     ideal = total.ideal * s
     bars = [_Bar("ideal", "ideal Δv", 0.0, ideal, "total")]
     level = ideal
-    for gid, label in (
+    credit = total.rotation_credit * s
+    if abs(credit) > 1e-6 * max(abs(ideal), 1.0):
+        bars.append(_Bar("rotation_credit", "Earth-rotation\ncredit", level, credit, "total"))
+        level += credit
+    losses = [
         ("gravity_loss", "gravity\nloss"),
         ("drag_loss", "drag\nloss"),
         ("steering_loss", "steering\nloss"),
         ("pressure_loss", "back-pressure\nloss"),
-    ):
+    ]
+    if abs(total.pad_loss) > 1e-9:
+        losses.append(("pad_loss", "burnt on\nthe pad"))
+    for gid, label in losses:
         loss = float(getattr(total, gid)) * s
         bars.append(_Bar(gid, label, level - loss, loss, "loss"))
         level -= loss
-    bars.append(
-        _Bar("achieved", "= achieved\n(Δ inertial speed)", 0.0, total.achieved * s, "total")
-    )
+    bars.append(_Bar("achieved", "= achieved\n(Δ speed)", 0.0, total.achieved * s, "total"))
     title = f"{mission.name}: delta-v ledger of the flight"
     figure = _new_figure(FIGURE_SIZE, mission, title)
     ax = figure.add_subplot(1, 1, 1)

@@ -449,21 +449,28 @@ def flight_view(
     def line(label: str, attribute: str) -> tuple[str, str, list[str]]:
         return label, speed, [_q(getattr(row, attribute), "speed", units) for row in rows]
 
-    sheet: list[tuple[str, str, Sequence[str]]] = [
-        line("Ideal Δv (∫ F_vac / m dt)", "ideal"),
+    total = result.total
+    sheet: list[tuple[str, str, Sequence[str]]] = [line("Ideal Δv (∫ F_vac / m dt)", "ideal")]
+    if abs(total.rotation_credit) > 1e-6 * max(abs(total.ideal), 1.0):
+        sheet.append(line("+ Earth-rotation credit", "rotation_credit"))
+    sheet += [
         line("− gravity loss", "gravity_loss"),
         line("− drag loss", "drag_loss"),
         line("− steering loss", "steering_loss"),
         line("− back-pressure loss", "pressure_loss"),
-        line("= achieved (Δ inertial speed)", "achieved"),
-        line("closure (ideal − losses − achieved)", "closure"),
+    ]
+    if abs(total.pad_loss) > 1e-9:
+        sheet.append(line("− burnt on the pad", "pad_loss"))
+    sheet += [
+        line("= achieved (Δ speed)", "achieved"),
+        line("closure (ideal + credit − losses − achieved)", "closure"),
     ]
     parts.append(
         _sheet(
             "Delta-v ledger of the flight (each stage from its ignition to the next)",
             names,
             sheet,
-            emphasise=["= achieved (Δ inertial speed)"],
+            emphasise=["= achieved (Δ speed)"],
         )
     )
     summary = Text()
@@ -487,7 +494,7 @@ def flight_view(
             f"eccentricity {_num(orbit.eccentricity, 3)}."
         )
     summary.append(
-        f"\nIntegrated in {result.compute_time * 1000:.0f} ms (batched Dormand–Prince 5(4), "
+        f"\nIntegrated in {result.compute_time * 1000:.0f} ms (compiled Dormand–Prince 5(4), "
         f"{int(result.outcome.steps[0])} steps); ending: {result.status}.",
         style="dim",
     )

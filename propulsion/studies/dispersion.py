@@ -13,7 +13,6 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
 
 import numpy as np
 import numpy.typing as npt
@@ -126,7 +125,7 @@ class Sampler:
         for ref in self.refs:
             nominal.append(_nominal(mission, ref))
         self.nominal = nominal
-        self.stages = ascent._flown_stages(mission)
+        self.stages = ascent.flown_stages(mission)
         self.mappings = [_fast_mapping(ref, mission) for ref in self.refs]
         self.base_dir = Path(mission.source).parent if mission.source != "<mission>" else None
         self.core = flight.build_core(mission, self.stages)
@@ -256,20 +255,10 @@ def _apply(
 def _concatenate(cores: list[flight.FlightCore], nominal: flight.FlightCore) -> flight.FlightCore:
     """Join one-sample cores into one batch; their shared tables must be the nominal's."""
     for core in cores:
-        for name in ("curve_time", "curve_thrust", "drag_mach", "drag_cd"):
-            for mine, theirs in zip(getattr(core, name), getattr(nominal, name), strict=True):
-                if mine.shape != theirs.shape or not np.array_equal(mine, theirs):
-                    raise PropulsionError(
-                        "a dispersed field changes a thrust or drag curve shared by all samples; "
-                        "disperse the motor's impulse_scale or burn_time_scale, or the "
-                        "vehicle's drag_scale, instead"
-                    )
-    values: dict[str, Any] = {}
-    for name, value in nominal.__dict__.items():
-        if isinstance(value, np.ndarray) and name not in ("wind_altitude", "wind_speed"):
-            values[name] = np.concatenate([getattr(core, name) for core in cores], axis=-1)
-        else:
-            values[name] = value
-    values["n"] = len(cores)
-    values["curve_impulse"] = nominal.curve_impulse
-    return flight.FlightCore(**values)
+        if not core.shared_tables_equal(nominal):
+            raise PropulsionError(
+                "a dispersed field changes a thrust or drag curve, the wind profile or a "
+                "setting shared by all samples; disperse the motor's impulse_scale or "
+                "burn_time_scale, or the vehicle's drag_scale, instead"
+            )
+    return flight.FlightCore.concatenate(cores)

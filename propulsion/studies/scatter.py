@@ -108,28 +108,21 @@ def _measure(
     mission: Mission, core: flight.FlightCore, outcome: flight.Outcome
 ) -> tuple[FloatArray, npt.NDArray[np.bool_]]:
     """The study's outputs per sample (rows of METRICS) and whether it meets the target."""
-    target = ascent._Target(mission, core)
-    apogee_t, apogee_y = outcome.events["apogee"]
-    rail_t, rail_y = outcome.events["rail_exit"]
-    model = flight._Model(core, flight._initial(core)[1])
-    described = model.describe(np.nan_to_num(apogee_t), np.nan_to_num(apogee_y))
-    apogee = np.where(np.isfinite(apogee_t), ascent._altitude(core, apogee_y), np.nan)
-    rail = np.where(np.isfinite(rail_t), ascent._ground_speed(core, np.nan_to_num(rail_y)), np.nan)
+    target = ascent.Target(mission, core)
     if target.judged:
         margin = target.metric(core, outcome)
         meets = margin >= 0
     else:
         margin = np.full(core.n, np.nan)
         meets = np.zeros(core.n, dtype=bool)
-    downrange = np.where(np.isfinite(apogee_t), described["downrange"], np.nan)
     out = np.vstack(
         [
-            apogee,
-            outcome.maxima["mach"][1],
-            outcome.maxima["dynamic_pressure"][1],
-            rail,
+            outcome.value("apogee", "altitude"),
+            outcome.value("max_mach", "mach"),
+            outcome.value("max_dynamic_pressure", "dynamic_pressure"),
+            outcome.value("rail_exit", "ground_speed"),
             margin,
-            downrange,
+            outcome.value("apogee", "downrange"),
         ]
     )
     return out, meets
@@ -322,7 +315,7 @@ def summarise(
             rho = spearman(x, y[finite])
             drivers.append((dispersion.field, METRICS[output], rho))
     drivers.sort(key=lambda item: -abs(item[2]))
-    target = ascent._Target(mission, flight.build_core(mission, ascent._flown_stages(mission)))
+    target = ascent.Target(mission, flight.build_core(mission, ascent.flown_stages(mission)))
     probability = aggregate.meets / aggregate.valid if aggregate.valid else math.nan
     return ScatterResult(
         mission=mission,

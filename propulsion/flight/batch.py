@@ -1,0 +1,117 @@
+"""Run a batch of flights through the compiled kernel, in threads of this process.
+
+Each sample is integrated on its own (:mod:`propulsion.flight.kernel`), so the batch is
+cut into chunks that run on a thread pool: the kernel releases the interpreter lock, and
+a sample's numbers are the same bit for bit whatever the chunk or the thread.
+"""
+
+from __future__ import annotations
+
+import os
+import time
+from concurrent.futures import ThreadPoolExecutor
+
+import numpy as np
+
+from propulsion.flight import layout
+from propulsion.flight.result import Outcome, Trajectory
+from propulsion.flight.state import FlightCore
+
+__all__ = ["available_threads", "simulate"]
+
+CHUNK = 64
+"""Samples per task on the thread pool."""
+RECORD_START = 4096
+"""Steps a recorded flight has room for at first (the buffers grow if it needs more)."""
+
+
+def available_threads() -> int:
+    """Cores this process may run on."""
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except AttributeError:  # not on Linux
+        return max(1, os.cpu_count() or 1)
+
+
+def simulate(
+    core: FlightCore, rtol: float = 1e-8, record: bool = False, threads: int | None = None
+) -> Outcome:
+    """Integrate a batch of flights until each one reaches its end.
+
+    Parameters
+    ----------
+    core : FlightCore
+        The flights, as SI arrays (one column per sample).
+    rtol : float
+        Relative tolerance of the Dormand–Prince 5(4) step control [dimensionless].
+    record : bool
+        Keep every accepted step of sample 0 (for trajectories and pictures).
+    threads : int or None
+        Threads to fly on; all available cores when None.
+
+    Returns
+    -------
+    Outcome
+        Events, maxima, ledger marks, final states and status per sample.
+    """
+    from propulsion.flight import kernel
+
+    started = time.perf_counter()
+    params, stage_params, settings, tables = core.pack()
+    n = core.n
+    events = layout.event_count(core.stages)
+    status = np.zeros(n, dtype=np.int64)
+    steps = np.zeros(n, dtype=np.int64)
+    event_time = np.empty((n, events))
+    event_state = np.empty((n, events, layout.NY))
+    event_values = np.empty((n, events, layout.ND))
+    trajectory = None
+    first = 0
+    if record and n:
+        capacity = RECORD_START
+        while True:
+            times = np.empty(capacity)
+            states = np.empty((capacity, layout.NY))
+            values = np.empty((capacity, layout.ND))
+            code, count, recorded, overflow = kernel.fly_recorded(
+                params[0], stage_params[0], settings, tables, rtol, event_time[0],
+                event_state[0], event_values[0], times, states, values,
+                np.empty(kernel.MEMORY),
+            )  # fmt: skip
+            if not overflow:
+                break
+            capacity *= 4
+        status[0], steps[0] = code, count
+        trajectory = Trajectory(
+            time=times[:recorded].copy(),
+            state=states[:recorded].copy(),
+            values=values[:recorded].copy(),
+        )
+        first = 1
+    workers = max(1, min(threads or available_threads(), (n - first + CHUNK - 1) // CHUNK))
+    bounds = [(lo, min(lo + CHUNK, n)) for lo in range(first, n, CHUNK)]
+
+    def run(bound: tuple[int, int]) -> None:
+        kernel.fly_range(
+            bound[0], bound[1], params, stage_params, settings, tables, rtol, status, steps,
+            event_time, event_state, event_values, np.empty(kernel.MEMORY),
+        )  # fmt: skip
+
+    if workers > 1:
+        with ThreadPoolExecutor(max_workers=workers) as pool:
+            for _ in pool.map(run, bounds):
+                pass
+    else:
+        for bound in bounds:
+            run(bound)
+    return Outcome(
+        stage_names=core.stage_names,
+        status_code=status,
+        steps=steps,
+        event_time=event_time,
+        event_state=event_state,
+        event_values=event_values,
+        trajectory=trajectory,
+        compute_time=time.perf_counter() - started,
+        threads=workers,
+    )
