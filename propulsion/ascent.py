@@ -328,7 +328,6 @@ class FlightResult:
 
     mission: Mission
     outcome: flight.Outcome = field(repr=False)
-    trajectory: pd.DataFrame = field(repr=False)
     events: Rows[FlightEvent]
     ledger: Rows[LossLedger]
     stages: Rows[StageFlight]
@@ -353,6 +352,16 @@ class FlightResult:
     def total(self) -> LossLedger:
         """The whole-flight ledger row."""
         return self.ledger[-1]
+
+    @property
+    def trajectory(self) -> pd.DataFrame:
+        """Every accepted step of the flight as a table (SI; unit suffixes in the column
+        names). Built on first use: pandas is imported only when it is needed."""
+        cached = self.__dict__.get("_trajectory")
+        if cached is None:
+            cached = _trajectory(self.outcome)
+            self.__dict__["_trajectory"] = cached
+        return cached
 
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready results with SI unit suffixes in the keys."""
@@ -512,6 +521,25 @@ def tune_kick(
     return float(angles[best]), float(margins[best])
 
 
+def bad_ignitions(core: flight.FlightCore, outcome: flight.Outcome) -> np.ndarray:
+    """Per sample: did an unguided upper stage light descending, too slow to steer, or
+    tilted more than ``IGNITION_TILT_MAX`` from vertical? (See the flight warnings.)"""
+    flagged = np.zeros(outcome.n, dtype=bool)
+    guided = core.guidance != "gravity_turn"
+    for k in range(1, core.stages):
+        if guided and core.steered[k]:
+            continue
+        key = f"ignition:{k}"
+        lit = outcome.happened(key)
+        bad = (
+            (outcome.value(key, "vertical_speed") < 0)
+            | (outcome.value(key, "air_speed") < core.hold_speed)
+            | (outcome.value(key, "tilt") > IGNITION_TILT_MAX)
+        )
+        flagged |= lit & bad
+    return flagged
+
+
 def stack_delta_v(core: flight.FlightCore, added: float) -> float:
     """Ideal delta-v of the flown stages of sample 0 with ``added`` payload mass [m/s]."""
     mass = float(core.mass_initial[0]) + added
@@ -598,14 +626,14 @@ def _event(outcome: flight.Outcome, name: str, key: str) -> FlightEvent | None:
     )
 
 
-def _trajectory(core: flight.FlightCore, outcome: flight.Outcome) -> pd.DataFrame:
+def _trajectory(outcome: flight.Outcome) -> pd.DataFrame:
     """The recorded steps of sample 0 as a table (SI, unit suffixes in the column names)."""
     import pandas as pd
 
     path = outcome.trajectory
     assert path is not None
     stage = np.searchsorted(_separation_times(outcome), path.time, side="right")
-    names = [core.stage_names[min(int(k), core.stages - 1)] for k in stage]
+    names = [outcome.stage_names[min(int(k), outcome.stages - 1)] for k in stage]
     return pd.DataFrame(
         {
             "time_s": path.time,
@@ -730,7 +758,6 @@ def fly(mission: Mission, rtol: float = 1e-8, margin: bool = True) -> FlightResu
     result = FlightResult(
         mission=mission,
         outcome=outcome,
-        trajectory=_trajectory(core, outcome),
         events=Rows(rows),
         ledger=Rows(ledger),
         stages=Rows(stages),

@@ -235,6 +235,9 @@ class Candidate:
     meets_target: bool
     warnings: tuple[str, ...]
     mission: Mission = field(repr=False, compare=False)
+    unsafe_ignition: bool = False
+    """An unguided upper stage lit descending, too slow to steer, or tilted beyond the
+    flight warnings' limit: such a stack ranks after every other that meets the target."""
 
     def to_dict(self) -> dict[str, Any]:
         """Fields keyed with SI unit suffixes, for JSON and DataFrames."""
@@ -259,6 +262,7 @@ class Candidate:
             "meets_target": self.meets_target,
             "warning_count": len(self.warnings),
             "warnings": list(self.warnings),
+            "unsafe_ignition": self.unsafe_ignition,
         }
 
 
@@ -491,7 +495,10 @@ def _rank(rows: Iterable[Candidate], criterion: str, target: float) -> list[Cand
         "least_mass": lambda r: (r.liftoff_mass, r.total_impulse, r.motors),
         "largest_margin": lambda r: (-_finite(r.margin, -math.inf), r.total_impulse, r.motors),
     }
-    meeting = sorted((row for row in rows if row.meets_target), key=keys[criterion])
+    meeting = sorted(
+        (row for row in rows if row.meets_target),
+        key=lambda r: (r.unsafe_ignition, *keys[criterion](r)),
+    )
     short = sorted(
         (row for row in rows if not row.meets_target),
         key=lambda r: (-_finite(r.margin, -math.inf), r.total_impulse, r.motors),
@@ -689,6 +696,7 @@ def pick(
                 meets_target=bool(verdict.meets_targets),
                 warnings=tuple(f"{f.subject}: {f.message}" for f in findings),
                 mission=candidate,
+                unsafe_ignition=any(f.subject == "ignition" for f in result.findings),
             )
         )
         if progress is not None:

@@ -75,12 +75,12 @@ def test_same_seed_same_numbers_whatever_the_chunks() -> None:
     assert other.percentiles != one.percentiles
 
 
-def test_process_pool_gives_the_same_numbers() -> None:
+def test_threads_give_the_same_numbers() -> None:
     mission = competition()
     local = scatter(mission, 240, seed=11, workers=1, chunk_size=240)
-    pooled = scatter(mission, 240, seed=11, workers=2, chunk_size=60)
-    assert "2 processes" in pooled.workers
-    assert_same(local, pooled)
+    threaded = scatter(mission, 240, seed=11, workers=2, chunk_size=60)
+    assert "2 threads" in threaded.workers
+    assert_same(local, threaded)
 
 
 def test_reservoir_keeps_memory_flat_and_counts_exact() -> None:
@@ -310,3 +310,34 @@ def test_a_field_without_any_nominal_is_bad_input() -> None:
     mission = parse_mission(doc, base_dir=MISSIONS)
     with pytest.raises(MissionError, match="needs a nominal value"):
         scatter(mission, 10, seed=1, workers=1)
+
+
+def test_bad_upper_stage_ignitions_are_counted_and_match_fly() -> None:
+    # The sustainer's coast before ignition is dispersed from 1 s to 40 s: late ignitions
+    # happen after the top of the coast, descending. The study counts those flights, and
+    # `fly` of the same sample warns about the same ignition.
+    doc = competition().document
+    doc["dispersion"] = [
+        {
+            "field": "stage.sustainer.ignition_delay",
+            "distribution": "uniform",
+            "low": "1 s",
+            "high": "40 s",
+        }
+    ]
+    mission = parse_mission(doc, source=str(MISSIONS / "x.toml"), base_dir=MISSIONS)
+    chunks: list[ChunkResult] = []
+    result = scatter(mission, 60, seed=3, workers=1, on_chunk=chunks.append)
+    assert 0 < result.bad_ignitions < result.valid
+    assert result.to_dict()["bad_upper_stage_ignitions"] == result.bad_ignitions
+    chunk = chunks[0]
+    flagged = np.flatnonzero(chunk.flagged)
+    clean = np.flatnonzero(~chunk.flagged & chunk.valid)
+    for j in (*flagged[:2], *clean[:2]):
+        sample = fields.set_value(
+            mission.document, fields.resolve(mission.document, "stage.sustainer.ignition_delay"),
+            float(chunk.inputs[0, j]),
+        )  # fmt: skip
+        flown = fly(parse_mission(sample, base_dir=MISSIONS), margin=False)
+        warned = any(finding.subject == "ignition" for finding in flown.findings)
+        assert warned == bool(chunk.flagged[j]), (j, chunk.inputs[0, j])

@@ -241,9 +241,9 @@ def _check_order(result: PickResult) -> None:
     assert [row.rank for row in meeting] == list(range(1, len(meeting) + 1))
     assert all(row.rank is None for row in rows[len(meeting) :])
     values = {
-        "least_impulse": [row.total_impulse for row in meeting],
-        "least_mass": [row.liftoff_mass for row in meeting],
-        "largest_margin": [-row.margin for row in meeting],
+        "least_impulse": [(row.unsafe_ignition, row.total_impulse) for row in meeting],
+        "least_mass": [(row.unsafe_ignition, row.liftoff_mass) for row in meeting],
+        "largest_margin": [(row.unsafe_ignition, -row.margin) for row in meeting],
     }[result.criterion]
     assert values == sorted(values)
 
@@ -272,6 +272,20 @@ def test_ranking_by_pick_equals_reranking(ranked: PickResult, hobby_small: PickR
     again = hobby_small.ranked_by("largest_margin")
     assert [row.motors for row in direct.rows] == [row.motors for row in again.rows]
     _check_order(direct)
+
+
+def test_a_stack_that_lights_its_sustainer_badly_ranks_last(ranked: PickResult) -> None:
+    # the flag follows the flight's own ignition warning
+    for row in ranked.rows:
+        assert row.unsafe_ignition == any(w.startswith("ignition:") for w in row.warnings)
+    first = next(row for row in ranked.rows if row.meets_target)
+    unsafe = dataclasses.replace(
+        first, motors="a", total_impulse=first.total_impulse - 1.0, unsafe_ignition=True
+    )
+    safe = dataclasses.replace(first, motors="b", total_impulse=first.total_impulse)
+    fake = dataclasses.replace(ranked, rows=type(ranked.rows)([unsafe, safe]))
+    for criterion in ("least_impulse", "least_mass", "largest_margin"):
+        assert [row.motors for row in fake.ranked_by(criterion).rows] == ["b", "a"]
 
 
 def test_ties_are_broken_by_total_impulse(ranked: PickResult) -> None:

@@ -147,6 +147,8 @@ def pick_view(result: PickResult, units: DisplayUnits, top: int = 15) -> Rendera
         if math.isfinite(row.margin) and row.margin > 0:
             margin = "+" + margin
         verdict = Text("meets", style="green") if row.meets_target else Text("short", style="red")
+        if row.unsafe_ignition:
+            verdict.append(" ign", style="bold red")
         if row.warnings:
             verdict.append(f" !{len(row.warnings)}", style="yellow")
         mass = [_q(row.liftoff_mass, "mass", units)] if with_mass else []
@@ -176,9 +178,10 @@ def pick_view(result: PickResult, units: DisplayUnits, top: int = 15) -> Rendera
     notes = Text(
         "Flown as `propulsion fly --no-margin` does; 'meets' means the apogee reaches the "
         "target (the mission's required delta-v margin is not checked). Mass: at liftoff. "
-        "T/W: liftoff thrust-to-weight (average thrust). Mach: the highest. !n: plausibility "
-        "warnings (listed by --json). Clusters need 2, 2.155 and 2.414 motor diameters for "
-        "2, 3 and 4 motors.",
+        "T/W: liftoff thrust-to-weight (average thrust). Mach: the highest. ign: an upper "
+        "stage lights descending, too slow to steer or tilted over 20 deg (ranked last). "
+        "!n: plausibility warnings (listed by --json). Clusters need 2, 2.155 and 2.414 "
+        "motor diameters for 2, 3 and 4 motors.",
         style="dim",
     )
     best = result.best

@@ -33,7 +33,7 @@ def scatter_command(
     samples: int = typer.Option(1000, "-n", "--samples-count", min=1, help="Number of samples."),
     seed: int = typer.Option(1, "--seed", help="Seed: the same seed gives the same numbers."),
     workers: int | None = typer.Option(
-        None, "--workers", min=1, help="Processes on this machine (default: one per core)."
+        None, "--workers", min=1, help="Threads that fly the samples (default: one per core)."
     ),
     cluster: str | None = typer.Option(
         None,

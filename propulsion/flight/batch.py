@@ -73,15 +73,16 @@ def simulate(
             times = np.empty(capacity)
             states = np.empty((capacity, layout.NY))
             values = np.empty((capacity, layout.ND))
-            code, count, recorded, overflow = kernel.fly_recorded(
-                params[0], stage_params[0], settings, tables, rtol, event_time[0],
-                event_state[0], event_values[0], times, states, values,
-                np.empty(kernel.MEMORY),
+            info = np.zeros(2, dtype=np.int64)
+            kernel.fly_batch(
+                0, 1, params, stage_params, settings, tables, rtol, status, steps, event_time,
+                event_state, event_values, np.empty(kernel.MEMORY), 0, times, states, values,
+                info,
             )  # fmt: skip
-            if not overflow:
+            if not info[1]:
                 break
             capacity *= 4
-        status[0], steps[0] = code, count
+        recorded = int(info[0])
         trajectory = Trajectory(
             time=times[:recorded].copy(),
             state=states[:recorded].copy(),
@@ -90,11 +91,15 @@ def simulate(
         first = 1
     workers = max(1, min(threads or available_threads(), (n - first + CHUNK - 1) // CHUNK))
     bounds = [(lo, min(lo + CHUNK, n)) for lo in range(first, n, CHUNK)]
+    no_times = np.empty(0)
+    no_states = np.empty((0, layout.NY))
+    no_values = np.empty((0, layout.ND))
 
     def run(bound: tuple[int, int]) -> None:
-        kernel.fly_range(
+        kernel.fly_batch(
             bound[0], bound[1], params, stage_params, settings, tables, rtol, status, steps,
-            event_time, event_state, event_values, np.empty(kernel.MEMORY),
+            event_time, event_state, event_values, np.empty(kernel.MEMORY), -1, no_times,
+            no_states, no_values, np.zeros(2, dtype=np.int64),
         )  # fmt: skip
 
     if workers > 1:

@@ -206,7 +206,7 @@ from propulsion.flight.layout import (
     Tables,
 )
 
-__all__ = ["MEMORY", "derivative", "describe", "fly_range", "fly_recorded", "site_frame"]
+__all__ = ["MEMORY", "derivative", "describe", "fly_batch", "site_frame"]
 
 # The kernel allocates nothing: the caller hands it every buffer. That lets it run without
 # numba's reference counting, which costs about 30 ns per call of a helper that takes arrays
@@ -1828,37 +1828,44 @@ def _fly(  # type: ignore[no-untyped-def]
 
 
 @compiled
-def fly_range(  # type: ignore[no-untyped-def]
-    lo, hi, params, stage_params, settings, tb, rtol, status, steps, ev_t, ev_y, ev_d, mem
+def fly_batch(  # type: ignore[no-untyped-def]
+    lo,
+    hi,
+    params,
+    stage_params,
+    settings,
+    tb,
+    rtol,
+    status,
+    steps,
+    ev_t,
+    ev_y,
+    ev_d,
+    mem,
+    recorded,
+    rec_t,
+    rec_y,
+    rec_d,
+    rec_info,
 ):
     """Fly samples lo..hi-1; each writes only its own rows of the outputs.
 
-    ``mem`` is scratch memory of at least MEMORY floats, for this call alone.
+    ``mem`` is scratch memory of at least MEMORY floats, for this call alone. Sample
+    ``recorded`` (if it lies in lo..hi-1) keeps its accepted steps in rec_t, rec_y,
+    rec_d; rec_info[0] gets how many, rec_info[1] 1 if the buffers were too small. One
+    entry point for both, so a new process loads one compiled function from the cache.
     """
     for i in range(lo, hi):
         ev_t[i, :] = math.nan
         ev_y[i, :, :] = math.nan
         ev_d[i, :, :] = math.nan
+        record = i == recorded
         result = _fly(
             params[i], stage_params[i], settings, tb, rtol, ev_t[i], ev_y[i], ev_d[i],
-            ev_t[i], ev_y[i], ev_d[i], False, mem,
+            rec_t, rec_y, rec_d, record, mem,
         )  # fmt: skip
         status[i] = result[0]
         steps[i] = result[1]
-
-
-@compiled
-def fly_recorded(  # type: ignore[no-untyped-def]
-    params, stage_params, settings, tb, rtol, ev_t, ev_y, ev_d, rec_t, rec_y, rec_d, mem
-):
-    """Fly one sample and keep its accepted steps in rec_t, rec_y, rec_d.
-
-    Returns (status, steps, steps recorded, whether the record buffers overflowed).
-    """
-    ev_t[:] = math.nan
-    ev_y[:, :] = math.nan
-    ev_d[:, :] = math.nan
-    return _fly(
-        params, stage_params, settings, tb, rtol, ev_t, ev_y, ev_d, rec_t, rec_y, rec_d, True,
-        mem,
-    )  # fmt: skip
+        if record:
+            rec_info[0] = result[2]
+            rec_info[1] = 1 if result[3] else 0

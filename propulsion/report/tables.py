@@ -387,9 +387,11 @@ def _altitude_sparkline(result: FlightResult, units: DisplayUnits) -> Text | Non
     """Two lines of altitude against time, with the start and end times and the apogee."""
     import numpy as np
 
-    frame = result.trajectory
-    time = frame["time_s"].to_numpy(dtype=float)
-    altitude = frame["altitude_m"].to_numpy(dtype=float)
+    path = result.outcome.trajectory
+    if path is None:
+        return None
+    time = path.time
+    altitude = path["altitude"]
     keep = np.isfinite(time) & np.isfinite(altitude)
     time, altitude = time[keep], altitude[keep]
     if time.size < 2 or not time[-1] > time[0]:
@@ -715,6 +717,12 @@ def scatter_view(result: ScatterResult, units: DisplayUnits) -> RenderableType:
         reasons = ", ".join(f"{name} {count}" for name, count in result.invalid_reasons.items())
         text.append(
             f"\n{invalid:,} sample(s) gave an impossible vehicle and were not flown ({reasons})."
+        )
+    if result.bad_ignitions:
+        text.append(
+            f"\n{result.bad_ignitions:,} flight(s) lit an upper stage while descending, too "
+            "slow to steer, or tilted beyond 20 deg from vertical (see `propulsion fly`).",
+            style="yellow",
         )
     source = (
         "all samples"

@@ -1,10 +1,11 @@
 """Sampling a mission's dispersions and turning the samples into a batch of flights.
 
-Each sample's random stream comes from its own index (``SeedSequence(seed,
-spawn_key=(index,))``), so a sample draws the same values whatever chunk or worker it
-lands in. Fields that map straight onto the flight core's arrays (masses, scales,
-launch angle, wind, delays, the pitch kick) are applied to a copy of the nominal core
-at array speed; any other numeric field is written into the mission document and the
+The samples are drawn in fixed blocks of ``BLOCK``: block b draws from its own generator
+(``SeedSequence(seed, spawn_key=(b,))``), so a sample draws the same values whatever chunk
+or worker it lands in, and a study of N samples builds N / BLOCK generators, not N.
+
+Fields that map straight onto the flight core's arrays (masses, scales, launch angle,
+wind, delays, the pitch kick) are applied to a copy of the nominal core at array speed; any other numeric field is written into the mission document and the
 mission is checked and built again for that sample (slower, but any field works).
 """
 
@@ -21,9 +22,14 @@ from propulsion import ascent, fields, flight
 from propulsion.errors import MissionError, PropulsionError
 from propulsion.mission import Dispersion, Mission, parse_mission
 
-__all__ = ["Sampler", "draw"]
+__all__ = ["BLOCK", "Sampler", "draw"]
 
 FloatArray = npt.NDArray[np.float64]
+
+
+BLOCK = 256
+"""Samples drawn together from one generator (a constant of the method: changing it
+changes every study's numbers)."""
 
 
 def draw(
@@ -31,23 +37,32 @@ def draw(
 ) -> tuple[FloatArray, FloatArray]:
     """Draw samples ``start..stop-1``: values (dispersions, n) [SI] and reservoir keys (n,).
 
-    Sample i draws from a generator seeded by ``SeedSequence(seed, spawn_key=(i,))``, in
-    the order the dispersions are listed, then one uniform key for the reservoir.
+    Samples come in blocks of ``BLOCK``: block b draws, from a generator seeded by
+    ``SeedSequence(seed, spawn_key=(b,))``, one array of ``BLOCK`` values per dispersion in
+    the order they are listed, then the reservoir keys. The values of sample i therefore
+    depend on the seed and i alone.
     """
-    count = stop - start
-    values = np.empty((len(dispersions), count))
-    keys = np.empty(count)
-    for j, index in enumerate(range(start, stop)):
-        rng = np.random.Generator(np.random.PCG64(np.random.SeedSequence(seed, spawn_key=(index,))))
+    first, last = start // BLOCK, (stop - 1) // BLOCK if stop > start else start // BLOCK - 1
+    blocks_values = []
+    blocks_keys = []
+    for block in range(first, last + 1):
+        rng = np.random.Generator(np.random.PCG64(np.random.SeedSequence(seed, spawn_key=(block,))))
+        values = np.empty((len(dispersions), BLOCK))
         for d, (dispersion, centre) in enumerate(zip(dispersions, nominal, strict=True)):
             if dispersion.distribution == "normal":
                 mean = centre if dispersion.mean is None else dispersion.mean
-                values[d, j] = mean + dispersion.sigma * rng.standard_normal()
+                values[d] = mean + dispersion.sigma * rng.standard_normal(BLOCK)
             elif dispersion.distribution == "uniform":
-                values[d, j] = dispersion.low + (dispersion.high - dispersion.low) * rng.random()
+                values[d] = dispersion.low + (dispersion.high - dispersion.low) * rng.random(BLOCK)
             else:
-                values[d, j] = rng.triangular(dispersion.low, dispersion.mode, dispersion.high)
-        keys[j] = rng.random()
+                values[d] = rng.triangular(dispersion.low, dispersion.mode, dispersion.high, BLOCK)
+        blocks_values.append(values)
+        blocks_keys.append(rng.random(BLOCK))
+    if not blocks_values:
+        return np.empty((len(dispersions), 0)), np.empty(0)
+    offset = first * BLOCK
+    values = np.concatenate(blocks_values, axis=1)[:, start - offset : stop - offset]
+    keys = np.concatenate(blocks_keys)[start - offset : stop - offset]
     return values, keys
 
 

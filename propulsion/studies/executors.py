@@ -1,9 +1,11 @@
-"""Where the chunks of a study run: this process, a pool of processes, or a Dask cluster.
+"""Where the chunks of a study run: this process, or a Dask cluster.
 
-No scheduling of our own: a chunk is a pure function call (:func:`run_chunk`), the pool
-is :class:`concurrent.futures.ProcessPoolExecutor`, and the cluster is dask.distributed,
-which reruns the chunks of a worker that dies. Results are merged in arrival order; the
-merge does not depend on it.
+No scheduling of our own: a chunk is a pure function call (:func:`run_chunk`). In this
+process the chunks run one after the other, and each one flies its samples on threads
+(the compiled kernel releases the interpreter lock; :func:`propulsion.flight.simulate`).
+On a cluster, dask.distributed shares the chunks out, one thread each, and reruns the
+chunks of a worker that dies. Results are merged in arrival order; the merge does not
+depend on it.
 """
 
 from __future__ import annotations
@@ -49,28 +51,23 @@ def run_chunks(
 ) -> tuple[int, str]:
     """Run every chunk of a study and hand each result to ``collect``.
 
-    Returns the number of chunks and a short description of where they ran.
+    ``workers`` is the number of threads that fly each chunk in this process (None:
+    one per core). Returns the number of chunks and a short description of where they ran.
     """
+    from dataclasses import replace
+
+    from propulsion.flight.batch import available_threads
+
     pieces = _chunks(samples, max(1, chunk_size))
     address = cluster if cluster is not None else os.environ.get(SCHEDULER_VARIABLE) or None
     if address is not None:
-        return len(pieces), _on_cluster(spec, pieces, collect, address)
-    count = workers if workers is not None else (os.cpu_count() or 1)
-    count = max(1, min(count, len(pieces)))
-    if count == 1:
-        for start, stop in pieces:
-            collect(run_chunk(spec, start, stop))
-        return len(pieces), "this process"
-    import multiprocessing
-    from concurrent.futures import ProcessPoolExecutor, as_completed
-
-    # spawn, not fork: the parent may run a progress-bar thread
-    context = multiprocessing.get_context("spawn")
-    with ProcessPoolExecutor(max_workers=count, mp_context=context) as pool:
-        futures = [pool.submit(run_chunk, spec, start, stop) for start, stop in pieces]
-        for future in as_completed(futures):
-            collect(future.result())
-    return len(pieces), f"{count} processes on this machine"
+        return len(pieces), _on_cluster(replace(spec, threads=1), pieces, collect, address)
+    threads = workers if workers is not None else available_threads()
+    local = replace(spec, threads=threads)
+    for start, stop in pieces:
+        collect(run_chunk(local, start, stop))
+    where = "this process" if threads == 1 else f"this process, {threads} threads"
+    return len(pieces), where
 
 
 def _on_cluster(

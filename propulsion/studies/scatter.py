@@ -40,6 +40,12 @@ __all__ = [
 
 FloatArray = npt.NDArray[np.float64]
 RESERVOIR = 100_000
+STUDY_RTOL = 1e-7
+"""Relative tolerance of the flights of a study: agreement with a tight reference of
+about 1e-7 (tests/test_flight_reference.py), far below any dispersion's spread."""
+CHUNK = 2_000
+"""Samples per chunk in this process: the progress bar moves every chunk, and memory
+stays bounded whatever the number of samples."""
 PERCENTILES = (1.0, 5.0, 50.0, 95.0, 99.0)
 METRICS = (
     "apogee_m",
@@ -53,12 +59,18 @@ METRICS = (
 
 @dataclass(frozen=True)
 class StudySpec:
-    """Everything a worker needs to fly a chunk: plain data, so it pickles anywhere."""
+    """Everything a worker needs to fly a chunk: plain data, so it pickles anywhere.
+
+    ``threads`` is how many threads fly a chunk (None: one per core); ``rtol`` the
+    integrator's relative tolerance.
+    """
 
     document: dict[str, Any]
     source: str
     base_dir: str | None
     seed: int
+    threads: int | None = None
+    rtol: float = STUDY_RTOL
 
 
 @dataclass
@@ -73,6 +85,9 @@ class ChunkResult:
     valid: npt.NDArray[np.bool_]
     keys: FloatArray
     reasons: list[str]
+    flagged: npt.NDArray[np.bool_] = field(default_factory=lambda: np.zeros(0, dtype=bool))
+    """Samples whose unguided upper stage lit descending, too slow to steer, or tilted
+    beyond the limit of the flight warnings."""
 
 
 _CACHE: dict[int, Sampler] = {}
@@ -95,13 +110,15 @@ def run_chunk(spec: StudySpec, start: int, stop: int) -> ChunkResult:
     core, valid, reasons = sampler.batch(values)
     outputs = np.full((len(METRICS), stop - start), np.nan)
     meets = np.zeros(stop - start, dtype=bool)
+    flagged = np.zeros(stop - start, dtype=bool)
     if core.n:
-        outcome = flight.simulate(core)
+        outcome = flight.simulate(core, rtol=spec.rtol, threads=spec.threads)
         rows = np.flatnonzero(valid)
         measured, met = _measure(sampler.mission, core, outcome)
         outputs[:, rows] = measured
         meets[rows] = met
-    return ChunkResult(start, stop, values, outputs, meets, valid, keys, reasons)
+        flagged[rows] = ascent.bad_ignitions(core, outcome)
+    return ChunkResult(start, stop, values, outputs, meets, valid, keys, reasons, flagged)
 
 
 def _measure(
@@ -191,6 +208,7 @@ class Aggregate:
         self.total = 0
         self.valid = 0
         self.meets = 0
+        self.flagged = 0
         self.invalid_reasons: dict[str, int] = {}
         self.keys = np.zeros(0)
         self.index = np.zeros(0, dtype=np.int64)
@@ -203,6 +221,8 @@ class Aggregate:
         self.total += chunk.stop - chunk.start
         self.valid += int(chunk.valid.sum())
         self.meets += int((chunk.meets & chunk.valid).sum())
+        if chunk.flagged.size:
+            self.flagged += int((chunk.flagged & chunk.valid).sum())
         for reason in (r for r, ok in zip(chunk.reasons, chunk.valid, strict=True) if not ok):
             label = reason.split(":")[0] if reason else "flight"
             self.invalid_reasons[label] = self.invalid_reasons.get(label, 0) + 1
@@ -235,6 +255,7 @@ class ScatterResult:
     valid: int
     meets: int
     invalid_reasons: dict[str, int]
+    bad_ignitions: int
     probability: float
     interval: tuple[float, float]
     percentiles: dict[str, dict[float, float]]
@@ -267,6 +288,7 @@ class ScatterResult:
             "invalid_samples": self.samples - self.valid,
             "invalid_reasons": self.invalid_reasons,
             "meets_target": self.meets,
+            "bad_upper_stage_ignitions": self.bad_ignitions,
             "probability_of_meeting_target": self.probability,
             "probability_interval_95": list(self.interval),
             "percentiles": {
@@ -323,6 +345,7 @@ def summarise(
         valid=aggregate.valid,
         meets=aggregate.meets,
         invalid_reasons=dict(sorted(aggregate.invalid_reasons.items())),
+        bad_ignitions=aggregate.flagged,
         probability=probability,
         interval=wilson_interval(aggregate.meets, aggregate.valid),
         percentiles=percentiles,
@@ -358,12 +381,13 @@ def scatter(
     samples : int
         Number of samples N.
     seed : int
-        Seed of the study; sample i draws from ``SeedSequence(seed, spawn_key=(i,))``.
+        Seed of the study; sample i's values depend on the seed and i alone
+        (:func:`propulsion.studies.dispersion.draw`).
     chunk_size : int or None
-        Samples per chunk (one batched flight each); by default the samples are shared
-        evenly between the workers, at most 5,000 a chunk.
+        Samples per chunk (one batched flight each); by default ``CHUNK`` in this
+        process, and on a cluster the samples shared in 8 or more chunks.
     workers : int or None
-        Processes on this machine (None: one per core; 1: this process only).
+        Threads that fly the samples in this process (None: one per core).
     cluster : str, dask Client, or None
         A dask.distributed scheduler address (``tcp://host:port``) or a Client; the
         chunks then run there.
@@ -414,9 +438,9 @@ def scatter(
     if chunk_size is None:
         import os
 
-        share = workers if workers is not None else (os.cpu_count() or 1)
+        chunk_size = CHUNK
         if cluster is not None or os.environ.get("PROPULSION_DASK_SCHEDULER"):
-            share = 8  # a cluster's size is not known here: enough chunks to share out
-        chunk_size = max(500, min(5000, math.ceil(samples / max(share, 1))))
+            # a cluster's size is not known here: enough chunks to share out
+            chunk_size = max(500, min(5000, math.ceil(samples / 8)))
     chunks, where = run_chunks(spec, samples, chunk_size, collect, workers=workers, cluster=cluster)
     return summarise(mission, aggregate, seed, chunks, where, time.perf_counter() - started)
