@@ -5,8 +5,9 @@ The samples are drawn in fixed blocks of ``BLOCK``: block b draws from its own g
 or worker it lands in, and a study of N samples builds N / BLOCK generators, not N.
 
 Fields that map straight onto the flight core's arrays (masses, scales, launch angle,
-wind, delays, the pitch kick) are applied to a copy of the nominal core at array speed; any other numeric field is written into the mission document and the
-mission is checked and built again for that sample (slower, but any field works).
+wind, delays, the pitch kick) are applied to a copy of the nominal core at array speed;
+any other numeric field is written into the mission document and the mission is checked
+and built again for that sample (slower, but any field works).
 """
 
 from __future__ import annotations
