@@ -240,7 +240,7 @@ def test_liftoff_is_where_thrust_first_exceeds_weight() -> None:
         assert abs(push) < 1e-6
         speeds.append(outcome.value("rail_exit", "ground_speed")[0])
     assert abs(speeds[0] - speeds[2]) < 1e-8
-    assert abs(speeds[1] - speeds[2]) < 1e-9
+    assert abs(speeds[1] - speeds[2]) < 1e-8
 
 
 def test_apogee_waits_for_the_last_burnout() -> None:
@@ -471,9 +471,16 @@ def test_losses_and_achieved_add_up_to_ideal(
     if result.status == "no liftoff":
         assert total.achieved == pytest.approx(0.0, abs=1e-9)
     assert total.closure == pytest.approx(0.0, abs=1e-5 * total.ideal)
-    # ideal delta-v of a full burn is the rocket equation (Tsiolkovsky)
+    # ideal delta-v of a full burn is the rocket equation (Tsiolkovsky); a marginal
+    # vehicle (thrust-to-weight near 1, no rail, no guidance) may turn over and hit the
+    # ground before its burnout, with less
     m0 = propellant + inert + 10.0
-    assert total.ideal == pytest.approx(isp * G0 * math.log(m0 / (m0 - propellant)), rel=1e-7)
+    full = isp * G0 * math.log(m0 / (m0 - propellant))
+    if math.isfinite(result.stages[0].burnout_time):
+        assert total.ideal == pytest.approx(full, rel=1e-7)
+    else:
+        assert result.status == "ground"
+        assert total.ideal < full
 
 
 # --- Earth's rotation against classical mechanics ------------------------------------------

@@ -129,7 +129,8 @@ Z_THRUST_DIRECTION = 19  # (3) thrust direction at the last derivative, inertial
 Z_MACH_KNOT = 22  # points of the drag curve at or below the current Mach number
 Z_LAYER_KNOT = 23  # atmosphere layer tops at or below the current geopotential altitude
 Z_WIND_KNOT = 24  # wind profile heights at or below the current height
-NZ = 25
+Z_KICK_DONE = 25  # the pitch programme is over (its scheduled end has been passed)
+NZ = 26
 
 WAITING = 0
 BURNING = 1

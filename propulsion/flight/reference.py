@@ -474,7 +474,7 @@ class _Flight:
         )
 
     def _direction(
-        self, t: float, up: Vector, air: Vector, air_speed: float, mode: _Mode
+        self, t: float, y: list[float], up: Vector, air: Vector, air_speed: float, mode: _Mode
     ) -> tuple[Vector, bool]:
         """Unit thrust direction (inertial frame); True while the rail or pad constrain."""
         if mode.on_rail or not mode.lifted:
@@ -487,11 +487,14 @@ class _Flight:
             horizontal = self._horizontal_in_plane(t, up)
             return _combine(math.cos(pitch), horizontal, math.sin(pitch), up), False
         if self._steering(mode):
-            # tan(pitch) falls linearly from its value at ignition to zero at burnout
+            # tan(pitch) falls linearly from its value at ignition to zero at burnout, in
+            # the vertical plane of the inertial velocity (no steering out of it)
             fraction = min(max((t - mode.ignition_time) / mode.burn_time, 0.0), 1.0)
             pitch = math.atan((1.0 - fraction) * math.tan(mode.guide_angle))
-            horizontal = self._horizontal_in_plane(t, up)
-            return _combine(math.cos(pitch), horizontal, math.sin(pitch), up), False
+            v = (y[3], y[4], y[5])
+            level = _combine(1.0, v, -_dot(v, up), up)
+            if _norm(level) > 0.0:
+                return _combine(math.cos(pitch), _unit(level), math.sin(pitch), up), False
         if mode.hold or air_speed <= _STILL_AIR:
             return mode.hold_direction, False
         return (air[0] / air_speed, air[1] / air_speed, air[2] / air_speed), False
@@ -519,7 +522,7 @@ class _Flight:
         # drag force = -drag_factor * air [N]
         drag_factor = 0.5 * density * air_speed * cd * self.cd_scale * self.area[k]
         thrust, vacuum, flow = self._propulsion(t, mode, pressure)
-        u, constrained = self._direction(t, up, air, air_speed, mode)
+        u, constrained = self._direction(t, y, up, air, air_speed, mode)
         gravity = self._gravity(r)
         # acceleration without any support: thrust, drag and gravity
         free = (
@@ -1041,35 +1044,35 @@ def _peak(
 ) -> tuple[float, float]:
     """Largest value of a quantity over the flight and its time: (value, time).
 
-    Every step node of every stretch is a candidate; around the best node, a bounded
-    Brent search on the stretch's dense output finds the maximum between its neighbours.
+    In every stretch, a bounded Brent search on the dense output between the neighbours
+    of its best step node finds the stretch's maximum; the largest of those wins.
     """
+    best, best_time = -math.inf, math.nan
+    for piece in record.pieces:
 
-    def value(piece: _Piece, t: float, y: list[float]) -> float:
-        result = quantity(flight.point(t, y, piece.mode))
-        return result if math.isfinite(result) else -math.inf
+        def value(t: float, y: list[float], piece: _Piece = piece) -> float:
+            result = quantity(flight.point(t, y, piece.mode))
+            return result if math.isfinite(result) else -math.inf
 
-    best, best_time, best_piece, best_index = -math.inf, math.nan, -1, -1
-    for number, piece in enumerate(record.pieces):
-        for index, t in enumerate(piece.nodes):
-            found = value(piece, float(t), piece.states[:, index].tolist())
-            if found > best:
-                best, best_time, best_piece, best_index = found, float(t), number, index
-    if best_piece < 0:
-        return math.nan, math.nan
-    piece = record.pieces[best_piece]
-    lo = float(piece.nodes[max(best_index - 1, 0)])
-    hi = float(piece.nodes[min(best_index + 1, len(piece.nodes) - 1)])
-    if hi > lo:
+        values = [value(float(t), piece.states[:, i].tolist()) for i, t in enumerate(piece.nodes)]
+        index = int(np.argmax(values))
+        if values[index] > best:
+            best, best_time = values[index], float(piece.nodes[index])
+        lo = float(piece.nodes[max(index - 1, 0)])
+        hi = float(piece.nodes[min(index + 1, len(piece.nodes) - 1)])
+        if not hi > lo or values[index] == -math.inf:
+            continue
 
-        def negative(t: float) -> float:
-            return -value(piece, t, piece.solution(t).tolist())
+        def negative(t: float, piece: _Piece = piece, value: Callable[..., float] = value) -> float:
+            return -value(t, piece.solution(t).tolist())
 
         search = minimize_scalar(
             negative, bounds=(lo, hi), method="bounded", options={"xatol": 1e-10 * (hi - lo)}
         )
         if -float(search.fun) > best:
             best, best_time = -float(search.fun), float(search.x)
+    if best == -math.inf:
+        return math.nan, math.nan
     return best, best_time
 
 
