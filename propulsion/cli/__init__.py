@@ -11,6 +11,7 @@ import sys
 import typer
 
 from propulsion import __version__
+from propulsion.cli import _threads  # noqa: F401 (sets the thread environment first)
 from propulsion.cli import budget as _budget
 from propulsion.cli import check as _check
 from propulsion.cli import compare as _compare

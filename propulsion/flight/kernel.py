@@ -263,16 +263,6 @@ N_KINDS = 8
 # Frames
 # ----------------------------------------------------------------------------------------
 @compiled
-def _cross(a: np.ndarray, b: np.ndarray, out: np.ndarray) -> None:
-    x = a[1] * b[2] - a[2] * b[1]
-    y = a[2] * b[0] - a[0] * b[2]
-    z = a[0] * b[1] - a[1] * b[0]
-    out[0] = x
-    out[1] = y
-    out[2] = z
-
-
-@compiled
 def _dot(a: np.ndarray, b: np.ndarray) -> float:
     return a[0] * b[0] + a[1] * b[1] + a[2] * b[2]
 
@@ -337,31 +327,13 @@ def site_frame(p: np.ndarray, earth: int, out: np.ndarray) -> None:
 
 
 @compiled
-def _to_inertial(v_fixed: np.ndarray, angle: float, out: np.ndarray) -> None:
-    """Turn an Earth-fixed vector into the inertial frame, Earth turned by ``angle``."""
-    c, s = math.cos(angle), math.sin(angle)
-    x = c * v_fixed[0] - s * v_fixed[1]
-    y = s * v_fixed[0] + c * v_fixed[1]
-    out[0] = x
-    out[1] = y
-    out[2] = v_fixed[2]
-
-
-@compiled
-def _local(r: np.ndarray, earth: int, site_altitude: float, g: np.ndarray) -> float:
-    """Local up, east, north (inertial frame) into g[0:9]; returns altitude above sea level.
-
-    Also writes the sine and cosine of the latitude into g[9] and g[10] (NaN on a flat
-    Earth).
-    """
+def _frame(x: float, y: float, z: float, earth: int, site_altitude: float) -> tuple:
+    """Altitude above sea level and the local up, east, north unit vectors (inertial frame)
+    at a position, with the sine and cosine of the latitude (NaN on a flat Earth):
+    (altitude, up x, y, z, east x, y, z, north x, y, z, sin lat, cos lat)."""
     if earth == EARTH_FLAT:
-        g[0], g[1], g[2] = 0.0, 0.0, 1.0
-        g[3], g[4], g[5] = 1.0, 0.0, 0.0
-        g[6], g[7], g[8] = 0.0, 1.0, 0.0
-        g[9] = math.nan
-        g[10] = math.nan
-        return r[2] + site_altitude
-    x, y, z = r[0], r[1], r[2]
+        nan = math.nan
+        return z + site_altitude, 0.0, 0.0, 1.0, 1.0, 0.0, 0.0, 0.0, 1.0, 0.0, nan, nan
     rho = math.sqrt(x * x + y * y)
     if rho > 0.0:
         co, so = x / rho, y / rho
@@ -380,31 +352,38 @@ def _local(r: np.ndarray, earth: int, site_altitude: float, g: np.ndarray) -> fl
         radius = math.sqrt(rho * rho + z * z)
         sl, cl = z / radius, rho / radius
         altitude = radius - RE
-    g[0], g[1], g[2] = cl * co, cl * so, sl
-    g[3], g[4], g[5] = -so, co, 0.0
-    g[6], g[7], g[8] = -sl * co, -sl * so, cl
-    g[9] = sl
-    g[10] = cl
-    return altitude
+    return altitude, cl * co, cl * so, sl, -so, co, 0.0, -sl * co, -sl * so, cl, sl, cl
 
 
 @compiled
-def _gravity(r: np.ndarray, earth: int, out: np.ndarray) -> None:
+def _local(r: np.ndarray, earth: int, site_altitude: float, g: np.ndarray) -> float:
+    """Local up, east, north (inertial frame) into g[0:9]; returns altitude above sea level.
+
+    Also writes the sine and cosine of the latitude into g[9] and g[10] (NaN on a flat
+    Earth).
+    """
+    frame = _frame(r[0], r[1], r[2], earth, site_altitude)
+    for j in range(11):
+        g[j] = frame[j + 1]
+    return frame[0]
+
+
+@compiled
+def _gravity(x: float, y: float, z: float, earth: int) -> tuple:
     """Gravitational acceleration [m/s^2]: uniform, inverse-square, or with J2 [3]."""
     if earth == EARTH_FLAT:
-        out[0], out[1], out[2] = 0.0, 0.0, -G0
-        return
-    x, y, z = r[0], r[1], r[2]
+        return 0.0, 0.0, -G0
     r2 = x * x + y * y + z * z
     radius = math.sqrt(r2)
     k = -MU / (r2 * radius)
-    out[0], out[1], out[2] = k * x, k * y, k * z
+    gx, gy, gz = k * x, k * y, k * z
     if earth == EARTH_ELLIPSOID:
         f = -1.5 * J2 * MU * RE * RE / (r2 * r2 * radius)
         q = 5.0 * z * z / r2
-        out[0] += f * x * (1.0 - q)
-        out[1] += f * y * (1.0 - q)
-        out[2] += f * z * (3.0 - q)
+        gx += f * x * (1.0 - q)
+        gy += f * y * (1.0 - q)
+        gz += f * z * (3.0 - q)
+    return gx, gy, gz
 
 
 # ----------------------------------------------------------------------------------------
@@ -476,16 +455,8 @@ def _interp(x: float, xs: np.ndarray, ys: np.ndarray, lo: int, hi: int) -> float
 
 
 @compiled
-def _wind(
-    height: float,
-    p: np.ndarray,
-    tb: Tables,
-    fr: np.ndarray,
-    g: np.ndarray,
-    count: int,
-    out: np.ndarray,
-) -> None:
-    """Wind velocity (inertial frame, relative to the ground) at a height above the site."""
+def _wind(height: float, p: np.ndarray, tb: Tables, fr: np.ndarray, count: int) -> tuple:
+    """Wind (east, north) [m/s], relative to the ground, at a height above the site."""
     east = 0.0
     north = 0.0
     n = tb.wind_height.size
@@ -500,8 +471,7 @@ def _wind(
     if along != 0.0:
         east += along * fr[F_AZIMUTH_SINE]
         north += along * fr[F_AZIMUTH_SINE + 1]
-    for j in range(3):
-        out[j] = east * g[3 + j] + north * g[6 + j]
+    return east, north
 
 
 # ----------------------------------------------------------------------------------------
@@ -541,80 +511,55 @@ def _thrust(t: float, z: np.ndarray, s: np.ndarray, tb: Tables, pressure: float)
 
 
 @compiled
-def _pitched(angle: float, g: np.ndarray, horizontal: np.ndarray, out: np.ndarray) -> None:
-    """Unit vector ``angle`` above the local horizon, towards ``horizontal``."""
-    c, s = math.cos(angle), math.sin(angle)
-    for j in range(3):
-        out[j] = c * horizontal[j] + s * g[j]
+def _direction(  # type: ignore[no-untyped-def]
+    t, vx, vy, vz, ux, uy, uz, z, p, s, c, fr, air_x, air_y, air_z, air_speed
+):
+    """Unit thrust direction (inertial frame) and whether rail or pad constrain the motion.
 
-
-@compiled
-def _direction(
-    t: float,
-    y: np.ndarray,
-    z: np.ndarray,
-    p: np.ndarray,
-    s: np.ndarray,
-    c: np.ndarray,
-    fr: np.ndarray,
-    g: np.ndarray,
-    air: np.ndarray,
-    air_speed: float,
-    work: np.ndarray,
-    out: np.ndarray,
-) -> bool:
-    """Unit thrust direction (inertial frame) into ``out``; True while rail or pad constrain.
-
-    On the rail or the pad: along the rail. During a pitch programme: the launch direction
-    in the local frame, tilted by the kick as it progresses. A stage steered by the
-    linear-tangent law: tan(pitch) = tan(pitch at ignition) (1 - t / burn time), in the plane
-    of the inertial velocity (no yaw steering). Otherwise
-    along the air-relative velocity, unless the air speed is below the hold threshold:
-    then the direction last flown is held.
+    ``ux, uy, uz`` is the local vertical. On the rail or the pad: along the rail. During a
+    pitch programme: the launch direction in the local frame, tilted by the kick as it
+    progresses. A stage steered by the linear-tangent law: tan(pitch) = tan(pitch at
+    ignition) (1 - t / burn time), in the plane of the inertial velocity (no yaw
+    steering). Otherwise along the air-relative velocity, unless the air speed is below the
+    hold threshold: then the direction last flown is held.
     """
     omega_t = p[P_OMEGA] * t
-    constrained = z[Z_ON_RAIL] > 0.5 or z[Z_LIFTED] < 0.5
-    if constrained:
-        _to_inertial(fr[F_RAIL : F_RAIL + 3], omega_t, out)
-        return True
-    kick = p[P_KICK_ANGLE]
+    cw, sw = 1.0, 0.0
+    if omega_t != 0.0:
+        cw, sw = math.cos(omega_t), math.sin(omega_t)
+    if z[Z_ON_RAIL] > 0.5 or z[Z_LIFTED] < 0.5:
+        rx, ry, rz = fr[F_RAIL], fr[F_RAIL + 1], fr[F_RAIL + 2]
+        return cw * rx - sw * ry, sw * rx + cw * ry, rz, True
+    k = int(z[Z_STAGE])
+    angle = 0.0
+    hx, hy, hz = 0.0, 0.0, 0.0
+    steered = False
     if _kick_active(t, z, p):
         progress = 0.0
         if t > z[Z_KICK_START]:
             progress = min((t - z[Z_KICK_START]) / p[P_KICK_DURATION], 1.0)
-        plane = work[0:3]
-        _to_inertial(fr[F_PLANE : F_PLANE + 3], omega_t, plane)
-        horizontal = work[3:6]
-        _cross(plane, g[0:3], horizontal)
-        size = _norm(horizontal)
-        for j in range(3):
-            horizontal[j] /= size
-        _pitched(p[P_ELEVATION] - kick * progress, g, horizontal, out)
-        return False
-    k = int(z[Z_STAGE])
-    if c[C_GUIDANCE] == GUIDE_LINEAR_TANGENT and s[k, S_STEERED] > 0.5 and z[Z_PHASE] == BURNING:
+        # the launch plane turns with the Earth; downrange is its normal x up
+        nx0, ny0, nz = fr[F_PLANE], fr[F_PLANE + 1], fr[F_PLANE + 2]
+        nx, ny = cw * nx0 - sw * ny0, sw * nx0 + cw * ny0
+        hx, hy, hz = ny * uz - nz * uy, nz * ux - nx * uz, nx * uy - ny * ux
+        angle = p[P_ELEVATION] - p[P_KICK_ANGLE] * progress
+        steered = True
+    elif c[C_GUIDANCE] == GUIDE_LINEAR_TANGENT and s[k, S_STEERED] > 0.5 and z[Z_PHASE] == BURNING:
         tau = (t - z[Z_IGNITION_TIME]) / z[Z_BURN_TIME]
         tau = min(max(tau, 0.0), 1.0)
         angle = math.atan(math.tan(z[Z_GUIDE_ANGLE]) * (1.0 - tau))
         # in the plane of the inertial velocity: the horizontal part of the velocity
-        horizontal = work[3:6]
-        v = y[3:6]
-        vertical = v[0] * g[0] + v[1] * g[1] + v[2] * g[2]
-        for j in range(3):
-            horizontal[j] = v[j] - vertical * g[j]
-        size = _norm(horizontal)
+        vertical = vx * ux + vy * uy + vz * uz
+        hx, hy, hz = vx - vertical * ux, vy - vertical * uy, vz - vertical * uz
+        steered = True
+    if steered:
+        size = math.sqrt(hx * hx + hy * hy + hz * hz)
         if size > 0.0:
-            for j in range(3):
-                horizontal[j] /= size
-            _pitched(angle, g, horizontal, out)
-            return False
+            ca, sa = math.cos(angle) / size, math.sin(angle)
+            return ca * hx + sa * ux, ca * hy + sa * uy, ca * hz + sa * uz, False
     if z[Z_HOLD] > 0.5 or air_speed <= 1e-9:
-        for j in range(3):
-            out[j] = z[Z_HOLD_DIRECTION + j]
-        return False
-    for j in range(3):
-        out[j] = air[j] / air_speed
-    return False
+        return z[Z_HOLD_DIRECTION], z[Z_HOLD_DIRECTION + 1], z[Z_HOLD_DIRECTION + 2], False
+    return air_x / air_speed, air_y / air_speed, air_z / air_speed, False
 
 
 # ----------------------------------------------------------------------------------------
@@ -640,22 +585,18 @@ def derivative(
     """
     earth = c[C_EARTH]
     omega = p[P_OMEGA]
-    r = y[0:3]
-    v = y[3:6]
-    g = work[0:11]  # up, east, north, latitude, longitude
-    altitude = _local(r, earth, p[P_SITE_ALTITUDE], g)
-    height = altitude - p[P_SITE_ALTITUDE]
+    x, yy, zz = y[0], y[1], y[2]
+    vx, vy, vz = y[3], y[4], y[5]
+    site_altitude = p[P_SITE_ALTITUDE]
+    altitude, ux, uy, uz, ex, ey, ez, nx, ny, nz, _, _ = _frame(x, yy, zz, earth, site_altitude)
+    height = altitude - site_altitude
     # velocity relative to the rotating Earth, and to the air
-    w = work[11:14]
-    w[0] = v[0] + omega * r[1]
-    w[1] = v[1] - omega * r[0]
-    w[2] = v[2]
-    wind = work[14:17]
-    _wind(height, p, tb, fr, g, int(z[Z_WIND_KNOT]), wind)
-    air = work[17:20]
-    for j in range(3):
-        air[j] = w[j] - wind[j]
-    air_speed = _norm(air)
+    wx, wy, wz = vx + omega * yy, vy - omega * x, vz
+    east, north = _wind(height, p, tb, fr, int(z[Z_WIND_KNOT]))
+    air_x = wx - (east * ex + north * nx)
+    air_y = wy - (east * ey + north * ny)
+    air_z = wz - (east * ez + north * nz)
+    air_speed = math.sqrt(air_x * air_x + air_y * air_y + air_z * air_z)
     atmosphere = work[20:23]
     _air(altitude, tb, int(z[Z_LAYER_KNOT]), atmosphere)
     density, pressure, sound = atmosphere[0], atmosphere[1], atmosphere[2]
@@ -667,80 +608,80 @@ def derivative(
     )
     drag_factor = 0.5 * density * air_speed * cd * p[P_CD_SCALE] * s[k, S_AREA]  # N s/m
     thrust, vacuum, flow = _thrust(t, z, s, tb, pressure)
-    u = work[23:26]
-    constrained = _direction(t, y, z, p, s, c, fr, g, air, air_speed, work[30:36], u)
-    gravity = work[26:29]
-    _gravity(r, earth, gravity)
+    dx, dy, dz, constrained = _direction(
+        t, vx, vy, vz, ux, uy, uz, z, p, s, c, fr, air_x, air_y, air_z, air_speed
+    )
+    gx, gy, gz = _gravity(x, yy, zz, earth)
     mass = y[Y_M]
-    free = work[36:39]
-    for j in range(3):
-        free[j] = (thrust * u[j] - drag_factor * air[j]) / mass + gravity[j]
+    fx = (thrust * dx - drag_factor * air_x) / mass + gx
+    fy = (thrust * dy - drag_factor * air_y) / mass + gy
+    fz = (thrust * dz - drag_factor * air_z) / mass + gz
     # centripetal acceleration of a point fixed to the Earth: omega x (omega x r)
     w2 = omega * omega
-    cx, cy = -w2 * r[0], -w2 * r[1]
+    cx, cy = -w2 * x, -w2 * yy
     rail_acceleration = math.nan
     rail_distance = math.nan
     held = False
-    acc = work[39:42]
     if constrained:
         # the rail turns with the Earth: the vehicle moves only along it
-        rail_distance = 0.0
-        fixed_x = math.cos(omega * t) * r[0] + math.sin(omega * t) * r[1]
-        fixed_y = -math.sin(omega * t) * r[0] + math.cos(omega * t) * r[1]
+        cw, sw = math.cos(omega * t), math.sin(omega * t)
+        fixed_x = cw * x + sw * yy
+        fixed_y = -sw * x + cw * yy
         rail_distance = (
             (fixed_x - fr[F_SITE]) * fr[F_RAIL]
             + (fixed_y - fr[F_SITE + 1]) * fr[F_RAIL + 1]
-            + (r[2] - fr[F_SITE + 2]) * fr[F_RAIL + 2]
+            + (zz - fr[F_SITE + 2]) * fr[F_RAIL + 2]
         )
-        along = u[0] * (free[0] - cx) + u[1] * (free[1] - cy) + u[2] * free[2]
+        along = dx * (fx - cx) + dy * (fy - cy) + dz * fz
         rail_acceleration = along
         if z[Z_LIFTED] < 0.5:
             # the pad holds the vehicle until the lift-off event lets it go (the event
             # is where the thrust along the rail first exceeds the weight along it)
             along = 0.0
             held = True
-        speed_along = _dot(u, w)
+        speed_along = dx * wx + dy * wy + dz * wz
         # s'' u + 2 omega x (s' u) + omega x (omega x r)
-        acc[0] = along * u[0] - 2.0 * omega * speed_along * u[1] + cx
-        acc[1] = along * u[1] + 2.0 * omega * speed_along * u[0] + cy
-        acc[2] = along * u[2]
+        ax = along * dx - 2.0 * omega * speed_along * dy + cx
+        ay = along * dy + 2.0 * omega * speed_along * dx + cy
+        az = along * dz
     else:
-        for j in range(3):
-            acc[j] = free[j]
-    f[0], f[1], f[2] = v[0], v[1], v[2]
-    f[3], f[4], f[5] = acc[0], acc[1], acc[2]
+        ax, ay, az = fx, fy, fz
+    f[0], f[1], f[2] = vx, vy, vz
+    f[3], f[4], f[5] = ax, ay, az
     f[Y_M] = -flow
     # the ledger: rates along the Earth-relative velocity (inertial once out of the air)
     inertial = z[Z_INERTIAL] > 0.5
-    ground_speed = _norm(w)
-    speed = _norm(v)
-    e = work[42:45]
-    reference = speed if inertial else ground_speed
-    base = v if inertial else w
-    if reference > 1e-9:
-        for j in range(3):
-            e[j] = base[j] / reference
+    ground_speed = math.sqrt(wx * wx + wy * wy + wz * wz)
+    speed = math.sqrt(vx * vx + vy * vy + vz * vz)
+    if inertial:
+        reference, bx, by, bz = speed, vx, vy, vz
     else:
-        for j in range(3):
-            e[j] = u[j]
-    f[Y_IDEAL] = vacuum / mass
-    f[Y_BACK] = (vacuum - thrust) / mass
-    f[Y_STEERING] = thrust / mass * (1.0 - _dot(u, e))
-    f[Y_DRAG] = drag_factor * _dot(air, e) / mass
-    f[Y_ROTATION] = 0.0 if inertial else -(cx * e[0] + cy * e[1])
+        reference, bx, by, bz = ground_speed, wx, wy, wz
+    if reference > 1e-9:
+        e_x, e_y, e_z = bx / reference, by / reference, bz / reference
+    else:
+        e_x, e_y, e_z = dx, dy, dz
+    ideal = vacuum / mass
+    back = (vacuum - thrust) / mass
+    steering = thrust / mass * (1.0 - (dx * e_x + dy * e_y + dz * e_z))
+    drag = drag_factor * (air_x * e_x + air_y * e_y + air_z * e_z) / mass
+    rotation = 0.0 if inertial else -(cx * e_x + cy * e_y)
+    f[Y_IDEAL] = ideal
+    f[Y_BACK] = back
+    f[Y_STEERING] = steering
+    f[Y_DRAG] = drag
+    f[Y_ROTATION] = rotation
     if held:
         # on the pad nothing moves: what the thrust gives is lost to the pad (gravity has
         # taken nothing yet, since there is no motion to slow)
         f[Y_GRAVITY] = 0.0
-        f[Y_PAD] = f[Y_IDEAL] - f[Y_BACK] - f[Y_STEERING] - f[Y_DRAG] + f[Y_ROTATION]
+        f[Y_PAD] = ideal - back - steering - drag + rotation
     else:
-        f[Y_GRAVITY] = -_dot(gravity, e)
+        f[Y_GRAVITY] = -(gx * e_x + gy * e_y + gz * e_z)
         # the rail's push is across the motion (zero along it)
-        f[Y_PAD] = -(
-            (acc[0] - free[0]) * e[0] + (acc[1] - free[1]) * e[1] + (acc[2] - free[2]) * e[2]
-        )
+        f[Y_PAD] = -((ax - fx) * e_x + (ay - fy) * e_y + (az - fz) * e_z)
     # auxiliary quantities
-    vertical = _dot(w, g[0:3])
+    vertical = wx * ux + wy * uy + wz * uz
     a[A_ALTITUDE] = height
     a[A_ALTITUDE_SEA_LEVEL] = altitude
     a[A_DENSITY] = density
@@ -754,19 +695,20 @@ def derivative(
     a[A_GROUND_SPEED] = ground_speed
     a[A_INERTIAL_SPEED] = speed
     a[A_VERTICAL_SPEED] = vertical
-    sx, sy, sz = acc[0] - gravity[0], acc[1] - gravity[1], acc[2] - gravity[2]
+    sx, sy, sz = ax - gx, ay - gy, az - gz
     a[A_ACCELERATION] = math.sqrt(sx * sx + sy * sy + sz * sz)
     a[A_RAIL_DISTANCE] = rail_distance
     a[A_RAIL_ACCELERATION] = rail_acceleration
     if earth == EARTH_FLAT:
         a[A_ENERGY] = math.nan
     else:
-        a[A_ENERGY] = 0.5 * speed * speed - MU / _norm(r)
-    a[A_TILT] = _dot(u, g[0:3])  # the cosine here; describe() turns it into the angle
+        a[A_ENERGY] = 0.5 * speed * speed - MU / math.sqrt(x * x + yy * yy + zz * zz)
+    a[A_TILT] = dx * ux + dy * uy + dz * uz  # the cosine here; describe() turns it into the angle
     a[A_LEDGER_SPEED] = reference
     a[A_FLIGHT_PATH] = vertical / ground_speed if ground_speed > 0.0 else math.nan
-    for j in range(3):
-        a[A_DIRECTION + j] = u[j]
+    a[A_DIRECTION] = dx
+    a[A_DIRECTION + 1] = dy
+    a[A_DIRECTION + 2] = dz
 
 
 @compiled
@@ -1184,7 +1126,7 @@ def _golden(  # type: ignore[no-untyped-def]
     e = 0.0
     for _ in range(40):
         middle = 0.5 * (lo + hi)
-        tol1 = 1e-5 * abs(x) + 1e-9
+        tol1 = 1e-4 * abs(x) + 1e-9
         tol2 = 2.0 * tol1
         if abs(x - middle) <= tol2 - 0.5 * (hi - lo):
             break
@@ -1274,9 +1216,9 @@ def _search_window(  # type: ignore[no-untyped-def]
 ):
     """The peak of a quantity in a window: (0 first step or 1 second, fraction, value).
 
-    Both steps are searched on their interpolants (a step cut very short leaves no room to
-    tell the side of the peak from a probe); then a Dormand–Prince step from the start of
-    the step to the peak gives the state there, as exact as any step end, into ``state``.
+    A probe near the node between the steps tells which one holds the peak; it is
+    searched on its interpolant, and a Dormand–Prince step from the start of the step to
+    the peak gives the state there, as exact as any step end, into ``state``.
     """
     y0 = window[W_Y0 : W_Y0 + NY]
     y1 = window[W_Y1 : W_Y1 + NY]
@@ -1288,15 +1230,29 @@ def _search_window(  # type: ignore[no-untyped-def]
     z0 = window[W_Z0 : W_Z0 + NZ]
     z1 = window[W_Z1 : W_Z1 + NZ]
     t0, h0, t1, h1 = window[W_T0], window[W_H0], window[W_T1], window[W_H1]
-    first_theta, first = _golden(which, t0, y0, y1, f0, f1, h0, z0, p, s, c, tb, fr, state, work)
-    second_theta, second = _golden(which, t1, y1, y2, g1, g2, h1, z1, p, s, c, tb, fr, state, work)
-    if first > second:
-        _step(
-            t0, y0, h0 * first_theta, f0, z0, p, s, c, tb, fr, k, state, f_out, a_out, error, work
+    f = work[150 : 150 + NY]
+    a = work[170 : 170 + NA]
+    node = window[W_NODE]
+    # which side of the node is the peak on? A probe 1e-3 into the longer of the two
+    # steps tells (a probe into a very short step would compare values that differ by
+    # round-off only)
+    if h0 >= h1:
+        near = _air_value(
+            which, 1.0 - 1e-3, t0, y0, y1, f0, f1, h0, z0, p, s, c, tb, fr, state, f, a, work
         )
-        return 0, first_theta, _quantity(which, a_out)
-    _step(t1, y1, h1 * second_theta, g1, z1, p, s, c, tb, fr, k, state, f_out, a_out, error, work)
-    return 1, second_theta, _quantity(which, a_out)
+        side = 0 if near > node else 1
+    else:
+        near = _air_value(
+            which, 1e-3, t1, y1, y2, g1, g2, h1, z1, p, s, c, tb, fr, state, f, a, work
+        )
+        side = 1 if near > node else 0
+    if side == 0:
+        theta, _ = _golden(which, t0, y0, y1, f0, f1, h0, z0, p, s, c, tb, fr, state, work)
+        _step(t0, y0, h0 * theta, f0, z0, p, s, c, tb, fr, k, state, f_out, a_out, error, work)
+    else:
+        theta, _ = _golden(which, t1, y1, y2, g1, g2, h1, z1, p, s, c, tb, fr, state, work)
+        _step(t1, y1, h1 * theta, g1, z1, p, s, c, tb, fr, k, state, f_out, a_out, error, work)
+    return side, theta, _quantity(which, a_out)
 
 
 # Scratch memory of one flight: named regions of one float buffer (the kernel allocates
