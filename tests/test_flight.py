@@ -470,14 +470,21 @@ def test_losses_and_achieved_add_up_to_ideal(
     total = result.total
     if result.status == "no liftoff":
         assert total.achieved == pytest.approx(0.0, abs=1e-9)
-    assert total.closure == pytest.approx(0.0, abs=1e-5 * total.ideal)
+    # the closure is integration error: small at the default tolerance, and smaller still
+    # at a tighter one (a near-vertical flight over the rotating Earth turns its slow
+    # velocity round at apogee within milliseconds, which costs the most)
+    assert abs(total.closure) < 5e-5 * total.ideal
+    tight = fly(parse_mission(doc), margin=False, rtol=1e-11).total
+    assert abs(tight.closure) < 1e-7 * tight.ideal
     # ideal delta-v of a full burn is the rocket equation (Tsiolkovsky); a marginal
     # vehicle (thrust-to-weight near 1, no rail, no guidance) may turn over and hit the
     # ground before its burnout, with less
     m0 = propellant + inert + 10.0
     full = isp * G0 * math.log(m0 / (m0 - propellant))
     if math.isfinite(result.stages[0].burnout_time):
-        assert total.ideal == pytest.approx(full, rel=1e-7)
+        # to the integration error of fly's tolerance (1e-8), which each cut at a drag-curve
+        # point adds to
+        assert total.ideal == pytest.approx(full, rel=3e-7)
     else:
         assert result.status == "ground"
         assert total.ideal < full

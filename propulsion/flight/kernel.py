@@ -837,6 +837,43 @@ def _error_norm(error: np.ndarray, y0: np.ndarray, y1: np.ndarray, rtol: float) 
     return math.sqrt(total / NY)
 
 
+# The continuous extension of the Dormand-Prince 5(4) pair, of order four: the
+# coefficients of theta, theta^2, theta^3, theta^4 for stages 1, 3, 4, 5, 6, 7 (stage 2
+# does not enter). L. F. Shampine, "Some practical Runge-Kutta formulas", Mathematics of
+# Computation 46(173), 135-150, 1986 (with the optimum c6 of the same paper).
+P1 = (1.0, -8048581381 / 2820520608, 8663915743 / 2820520608, -12715105075 / 11282082432)
+P3 = (0.0, 131558114200 / 32700410799, -68118460800 / 10900136933, 87487479700 / 32700410799)
+P4 = (0.0, -1754552775 / 470086768, 14199869525 / 1410260304, -10690763975 / 1880347072)
+P5 = (
+    0.0,
+    127303824393 / 49829197408,
+    -318862633887 / 49829197408,
+    701980252875 / 199316789632,
+)
+P6 = (0.0, -282668133 / 205662961, 2019193451 / 616988883, -1453857185 / 822651844)
+P7 = (0.0, 40617522 / 29380423, -110615467 / 29380423, 69997945 / 29380423)
+
+
+@compiled
+def _dense(y0, f0, k, f1, h, theta, out):  # type: ignore[no-untyped-def]
+    """The step's continuous extension (order four) at fraction ``theta``: free, from the
+    stages of the step (f0, k[1..5], f1)."""
+    t1 = theta
+    t2 = t1 * theta
+    t3 = t2 * theta
+    t4 = t3 * theta
+    b1 = P1[0] * t1 + P1[1] * t2 + P1[2] * t3 + P1[3] * t4
+    b3 = P3[1] * t2 + P3[2] * t3 + P3[3] * t4
+    b4 = P4[1] * t2 + P4[2] * t3 + P4[3] * t4
+    b5 = P5[1] * t2 + P5[2] * t3 + P5[3] * t4
+    b6 = P6[1] * t2 + P6[2] * t3 + P6[3] * t4
+    b7 = P7[1] * t2 + P7[2] * t3 + P7[3] * t4
+    for j in range(NY):
+        out[j] = y0[j] + h * (
+            b1 * f0[j] + b3 * k[2, j] + b4 * k[3, j] + b5 * k[4, j] + b6 * k[5, j] + b7 * f1[j]
+        )
+
+
 @compiled
 def _hermite(y0, y1, f0, f1, h, theta, out):  # type: ignore[no-untyped-def]
     """Cubic Hermite interpolant of a step at fraction ``theta`` (Hairer et al., II.6)."""
@@ -933,7 +970,7 @@ def _root_on_interpolant(  # type: ignore[no-untyped-def]
     tolerance,
     t0,
     y0,
-    y1,
+    k,
     f0,
     f1,
     h,
@@ -947,7 +984,8 @@ def _root_on_interpolant(  # type: ignore[no-untyped-def]
     work,
     point=0.0,
 ):
-    """Fraction of the step where an event function crosses zero, on the interpolant.
+    """Fraction of the step where an event function crosses zero, on the step's continuous
+    extension (:func:`_dense`).
 
     Illinois regula falsi to ``tolerance`` in the fraction; returns the end of the final
     bracket on the far side of the root. Kinds past the events are table points: the
@@ -962,7 +1000,7 @@ def _root_on_interpolant(  # type: ignore[no-untyped-def]
         theta = (lo * ghi - hi * glo) / (ghi - glo)
         if not lo < theta < hi:
             theta = 0.5 * (lo + hi)
-        _hermite(y0, y1, f0, f1, h, theta, state)
+        _dense(y0, f0, k, f1, h, theta, state)
         derivative(t0 + theta * h, state, z, p, s, c, tb, fr, f, a, work)
         if kind < N_KINDS:
             gm = _event_value(kind, a, p)
@@ -1347,12 +1385,16 @@ def _knot_value(which: int, a: np.ndarray, z: np.ndarray, tb: Tables) -> float:
 
 @compiled
 def _knot_table(which: int, z: np.ndarray, tb: Tables) -> tuple:
+    """The points of a table where the step must end (none for a one-point table, which
+    is constant)."""
     if which == 0:
         k = int(z[Z_STAGE])
-        return tb.drag_mach, tb.drag_start[k], tb.drag_start[k + 1]
+        lo, hi = tb.drag_start[k], tb.drag_start[k + 1]
+        return tb.drag_mach, lo, hi if hi - lo > 1 else lo
     if which == 1:
         return tb.layer_tops, 0, tb.layer_tops.size
-    return tb.wind_height, 0, tb.wind_height.size
+    n = tb.wind_height.size
+    return tb.wind_height, 0, n if n > 1 else 0
 
 
 @compiled
@@ -1517,7 +1559,7 @@ def _fly(  # type: ignore[no-untyped-def]
             if not _crossed(direction, g0[kind], g1):
                 continue
             theta = _root_on_interpolant(
-                kind, g0[kind], g1, 1e-9, t, y, y1, f0, f1, h, z, p, s, c, tb, fr, state, work
+                kind, g0[kind], g1, 1e-9, t, y, k, f0, f1, h, z, p, s, c, tb, fr, state, work
             )
             if theta < theta_fired:
                 theta_fired = theta
@@ -1535,7 +1577,7 @@ def _fly(  # type: ignore[no-untyped-def]
             x0 = _knot_value(which, a0, z, tb) - point
             x1 = _knot_value(which, a1, z, tb) - point
             theta = _root_on_interpolant(
-                N_KINDS + which, x0, x1, 1e-7, t, y, y1, f0, f1, h, z, p, s, c, tb, fr, state,
+                N_KINDS + which, x0, x1, 1e-5, t, y, k, f0, f1, h, z, p, s, c, tb, fr, state,
                 work, point,
             )  # fmt: skip
             theta = min(theta + 1e-9, 1.0)
@@ -1544,11 +1586,11 @@ def _fly(  # type: ignore[no-untyped-def]
                 fired = -1
                 knot = which
         if fired >= 0:
-            # step again from the start to the event: the interpolant's root is accurate to
-            # the integration error. A second integrated state close by on the other side
-            # of the root brackets it tightly; regula falsi (Illinois) on integrated states
-            # then closes the bracket to 1e-9 of the step, and the cut lands on its far
-            # side, so the crossing has happened there.
+            # step again from the start to the event: the root on the continuous extension
+            # is accurate to the integration error. A second integrated state close by on
+            # the other side of the root brackets it tightly; regula falsi (Illinois) on
+            # integrated states then closes the bracket to 1e-9 of the step, and the cut
+            # lands on its far side, so the crossing has happened there.
             ghi = _event_value(fired, a1, p)
             glo = g0[fired]
             slope = abs(ghi - glo)
@@ -1588,7 +1630,10 @@ def _fly(  # type: ignore[no-untyped-def]
             h = h * hi_theta
             scheduled = False
         elif knot >= 0:
-            _step(t, y, h * theta_fired, f0, z, p, s, c, tb, fr, k, y1, f1, a1, error, work)
+            # the state at the table's point from the step's continuous extension (the
+            # step's own accuracy, at no cost), and the derivative there
+            _dense(y, f0, k, f1, h, theta_fired, y1)
+            derivative(t + h * theta_fired, y1, z, p, s, c, tb, fr, f1, a1, work)
             t1 = t + h * theta_fired
             h = h * theta_fired
             scheduled = False

@@ -230,16 +230,22 @@ class FlightCore:
         settings[layout.C_STAGES] = s
         settings[layout.C_GUIDANCE] = _GUIDANCE[self.guidance]
         tops, rows = layer_table()
+        kept = [kinks_only(m, cd) for m, cd in zip(self.drag_mach, self.drag_cd, strict=True)]
+        mach = tuple(
+            np.asarray(m, dtype=float)[k] for m, k in zip(self.drag_mach, kept, strict=True)
+        )
+        cd = tuple(np.asarray(c, dtype=float)[k] for c, k in zip(self.drag_cd, kept, strict=True))
+        wind = kinks_only(self.wind_height, self.wind_east, self.wind_north)
         tables = layout.Tables(
             curve_time=np.concatenate(self.curve_time).astype(np.float64),
             curve_thrust=np.concatenate(self.curve_thrust).astype(np.float64),
             curve_start=_starts(self.curve_time),
-            drag_mach=np.concatenate(self.drag_mach).astype(np.float64),
-            drag_cd=np.concatenate(self.drag_cd).astype(np.float64),
-            drag_start=_starts(self.drag_mach),
-            wind_height=np.ascontiguousarray(self.wind_height, dtype=np.float64),
-            wind_east=np.ascontiguousarray(self.wind_east, dtype=np.float64),
-            wind_north=np.ascontiguousarray(self.wind_north, dtype=np.float64),
+            drag_mach=np.concatenate(mach),
+            drag_cd=np.concatenate(cd),
+            drag_start=_starts(mach),
+            wind_height=np.ascontiguousarray(self.wind_height[wind], dtype=np.float64),
+            wind_east=np.ascontiguousarray(self.wind_east[wind], dtype=np.float64),
+            wind_north=np.ascontiguousarray(self.wind_north[wind], dtype=np.float64),
             layer_tops=tops,
             layer_rows=rows,
         )
@@ -271,6 +277,30 @@ class FlightCore:
         self.start_state = state
         self.start_time = np.zeros(self.n)
         self.airborne = True
+
+
+def kinks_only(x: FloatArray, *columns: FloatArray) -> npt.NDArray[np.bool_]:
+    """Which points of a piecewise-linear table (held constant beyond its ends) are kinks.
+
+    A point where the slope of every column is the same on both sides (the ends count the
+    constant extension as a slope of zero) changes nothing when it is left out; the kernel
+    ends a step at every point it reads, so such points would cost steps for nothing. At
+    least one point is kept.
+    """
+    x = np.asarray(x, dtype=float)
+    keep = np.zeros(x.size, dtype=bool)
+    if x.size == 0:
+        return keep
+    for column in columns:
+        y = np.asarray(column, dtype=float)
+        slopes = np.zeros(x.size + 1)
+        if x.size > 1:
+            slopes[1:-1] = np.diff(y) / np.diff(x)
+        scale = max(float(np.max(np.abs(slopes))), 1e-300)
+        keep |= np.abs(np.diff(slopes)) > 1e-12 * scale
+    if not keep.any():
+        keep[0] = True
+    return keep
 
 
 def _starts(parts: tuple[FloatArray, ...]) -> IntArray:
