@@ -1587,15 +1587,17 @@ def _fly(  # type: ignore[no-untyped-def]
                 knot = which
         if fired >= 0:
             # step again from the start to the event: the root on the continuous extension
-            # is accurate to the integration error. A second integrated state close by on
-            # the other side of the root brackets it tightly; regula falsi (Illinois) on
-            # integrated states then closes the bracket to 1e-9 of the step, and the cut
-            # lands on its far side, so the crossing has happened there.
+            # is accurate to the integration error. If the integrated state there has not
+            # crossed yet, a second one close by on the other side brackets the root, and
+            # regula falsi (Illinois) on integrated states closes the bracket to 1e-9 of
+            # the step; the cut lands on its far side, so the crossing has happened there.
             ghi = _event_value(fired, a1, p)
             glo = g0[fired]
             slope = abs(ghi - glo)
             lo_theta, hi_theta = 0.0, 1.0
-            theta = theta_fired
+            # aim just past the root on the extension: usually the integrated state there
+            # has crossed too, and one step suffices
+            theta = min(theta_fired + 1e-9, 1.0)
             side = 0
             for attempt in range(12):
                 _step(
@@ -1618,6 +1620,8 @@ def _fly(  # type: ignore[no-untyped-def]
                     side = 1
                 if hi_theta - lo_theta < 1e-9 or gm == 0.0:
                     break
+                if past and abs(gm) < 1e-9 * slope:
+                    break  # past the root, and within 1e-9 of the step of it
                 if attempt == 0:
                     reach = max(2.0 * abs(gm) / slope, 1e-9)
                     theta = theta - reach if past else theta + reach
