@@ -1,6 +1,6 @@
 """`python -m propulsion` runs the command line."""
 
-from propulsion.cli import main
+from propulsion.cli import entry
 
 if __name__ == "__main__":  # worker processes import this module too; they must not run it
-    main()
+    entry()

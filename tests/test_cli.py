@@ -215,3 +215,30 @@ def test_fly_exit_code_1_when_short(tmp_path: Path) -> None:
     result = runner.invoke(app, ["fly", str(mission)])
     assert result.exit_code == 1
     assert "Falls short of the apogee target" in " ".join(result.output.split())
+
+
+def test_a_command_that_flew_exits_with_its_code_and_all_its_output(tmp_path: Path) -> None:
+    # after a flight the process ends at once (the compiled kernel's teardown is skipped):
+    # the exit code and every byte printed must survive that
+    def fly(mission: Path) -> subprocess.CompletedProcess[str]:
+        return subprocess.run(
+            [sys.executable, "-m", "propulsion", "fly", str(mission), "--json"],
+            capture_output=True,
+            text=True,
+            check=False,
+            timeout=120,
+        )
+
+    source = MISSIONS / "two_stage_competition.toml"
+    done = fly(source)
+    assert done.returncode == 0, done.stderr
+    data = json.loads(done.stdout)
+    assert data["meets_targets"] is True and "safety_caution" in data
+    higher = tmp_path / "higher.toml"
+    higher.write_text(
+        source.read_text(encoding="utf-8").replace('altitude = "3000 m"', 'altitude = "5 km"'),
+        encoding="utf-8",
+    )
+    short = fly(higher)
+    assert short.returncode == 1, short.stderr
+    assert json.loads(short.stdout)["meets_targets"] is False

@@ -6,6 +6,8 @@ Exit codes: 0 success, 1 the mission falls short of its targets, 2 bad input.
 
 from __future__ import annotations
 
+import contextlib
+import os
 import sys
 
 import typer
@@ -25,7 +27,7 @@ from propulsion.cli import split as _split
 from propulsion.cli import sweep as _sweep
 from propulsion.cli.common import state
 
-__all__ = ["app", "main"]
+__all__ = ["app", "entry", "main"]
 
 app = typer.Typer(
     name="propulsion",
@@ -71,8 +73,27 @@ app.command("check")(_check.check_command)
 app.command("data")(_data.data_command)
 
 
+def entry() -> None:
+    """The console script and ``python -m propulsion``: :func:`main`, then a quick exit.
+
+    The compiled flight kernel takes about 0.3 s to tear down when the interpreter exits.
+    When :func:`main` has finished, every output has been written and closed and every
+    pool and client shut: what was printed is flushed and the process ends at once.
+    """
+    try:
+        main()
+    except SystemExit as exc:
+        code = exc.code if isinstance(exc.code, int) else (0 if exc.code is None else 1)
+        if "propulsion.flight.kernel" not in sys.modules:
+            raise
+        for stream in (sys.stdout, sys.stderr):
+            with contextlib.suppress(OSError, ValueError):
+                stream.flush()
+        os._exit(code)
+
+
 def main() -> None:
-    """Console-script entry point.
+    """Run the command line; always ends with ``SystemExit`` and the exit code.
 
     Exit codes: 0 success, 1 the mission falls short, 2 bad input, 3 an internal error
     (a bug: the message asks for a report; ``--debug`` shows the traceback).
