@@ -16,7 +16,6 @@ from __future__ import annotations
 
 import itertools
 import math
-import time as _time
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
@@ -697,10 +696,9 @@ def fly(mission: Mission, rtol: float = 1e-8, margin: bool = True) -> FlightResu
     .. [1] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed., 2013,
        section 11.2, eq. 11.8 and following (the delta-v losses of a launch).
     """
-    started = _time.perf_counter()
     core = flight.build_core(mission, flown_stages(mission))
     outcome = flight.simulate(core, rtol=rtol, record=True)
-    compute_time = _time.perf_counter() - started
+    compute_time = outcome.compute_time
     events: list[FlightEvent | None] = [
         _event(outcome, "liftoff", "liftoff"),
         _event(outcome, "rail exit", "rail_exit"),

@@ -496,7 +496,7 @@ def flight_view(
             f"eccentricity {_num(orbit.eccentricity, 3)}."
         )
     summary.append(
-        f"\nIntegrated in {result.compute_time * 1000:.0f} ms (compiled Dormand–Prince 5(4), "
+        f"\nIntegrated in {_num(result.compute_time * 1000, 2)} ms (compiled Dormand–Prince 5(4), "
         f"{int(result.outcome.steps[0])} steps); ending: {result.status}.",
         style="dim",
     )
