@@ -3,21 +3,17 @@
 :func:`fly` integrates the stages of the first leg with :mod:`propulsion.flight`, then
 builds the delta-v ledger (ideal plus the Earth-rotation credit minus gravity, drag,
 steering, back-pressure and pad losses equals the change of speed, per stage and in
-total), the events a team checks, the verdict against the leg's target with its margin,
-and flight warnings. It reads only :class:`propulsion.flight.Outcome`: every number of the
-flight is derived in the kernel.
-
-The margin in delta-v terms is found by root finding on the simulation: the payload mass
-that could be added (or must be removed) so that the target is just met, expressed as the
-ideal delta-v it costs.
+total), the events a team checks, and flight warnings, and hands the outcome to
+:mod:`propulsion.margins` for the verdict and its three margins (target, propulsion,
+payload). It reads only :class:`propulsion.flight.Outcome`: every number of the flight is
+derived in the kernel.
 """
 
 from __future__ import annotations
 
 import itertools
 import math
-from collections.abc import Callable
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -26,6 +22,13 @@ from propulsion import flight
 from propulsion.constants import EARTH_EQUATORIAL_RADIUS, EARTH_MU, STANDARD_GRAVITY
 from propulsion.flight import layout
 from propulsion.ledger import Rows, budget
+from propulsion.margins import (
+    MIN_PERIGEE,
+    FlightVerdict,
+    Target,
+    judge_flight,
+    perigee_altitude,
+)
 from propulsion.mission import Mission
 from propulsion.plausibility import Finding
 
@@ -50,13 +53,13 @@ RAIL_EXIT_SPEED_MIN = 15.0
 """Usual minimum rail exit speed [m/s] for fin-stabilised rockets (common practice, no source)."""
 TRANSONIC_MACH = 0.8
 """Mach number above which the flow is transonic and a rough drag curve is least certain."""
-MIN_PERIGEE = 100e3
-"""Lowest perigee altitude [m] that counts as an orbit: 100 km, the edge of space by the
-convention of the Fédération Aéronautique Internationale."""
 SHORT_LIFE_PERIGEE = 150e3
 """Perigee altitude [m] below which an orbit decays within days (common practice, no source)."""
 WAIVER_APOGEE = 3000.0
 """Apogee above the launch site [m] beyond which flights usually need an airspace authorisation."""
+LEDGER_SCALE_FLOOR = 100.0
+"""Smallest delta-v [m/s] the ledger's resolution is taken of (a tiny flight's ledger is
+still resolved no finer than rtol times this)."""
 IGNITION_TILT_MAX = math.radians(20.0)
 """Largest tilt from the vertical [rad] at which an unguided upper stage should light: flight-
 safety codes commonly ask for an upper stage to light only within about 20 degrees of
@@ -126,17 +129,6 @@ def osculating_orbit(
         angular_momentum=momentum,
         inclination=inclination,
     )
-
-
-def perigee_altitude(states: FloatArray) -> FloatArray:
-    """Perigee altitude of the osculating orbit of states (n, NY) [m] (vectorised)."""
-    r = states[:, layout.Y_R : layout.Y_R + 3]
-    v = states[:, layout.Y_V : layout.Y_V + 3]
-    radius = np.linalg.norm(r, axis=1)
-    energy = 0.5 * np.sum(v * v, axis=1) - EARTH_MU / radius
-    momentum = np.linalg.norm(np.cross(r, v), axis=1)
-    eccentricity = np.sqrt(np.maximum(0.0, 1.0 + 2.0 * energy * momentum**2 / EARTH_MU**2))
-    return momentum**2 / EARTH_MU / (1.0 + eccentricity) - EARTH_EQUATORIAL_RADIUS
 
 
 @dataclass(frozen=True)
@@ -209,6 +201,25 @@ class LossLedger:
         )
         return self.ideal + self.rotation_credit - losses - self.achieved
 
+    def cleaned(self, resolution: float) -> LossLedger:
+        """A copy with every term within ``resolution`` [m/s] of zero set to 0: a loss of
+        -5e-15 m/s is round-off, not a result. The closure is left to show the rest."""
+
+        def clean(value: float) -> float:
+            return 0.0 if abs(value) <= resolution else value
+
+        return replace(
+            self,
+            ideal=clean(self.ideal),
+            gravity_loss=clean(self.gravity_loss),
+            drag_loss=clean(self.drag_loss),
+            steering_loss=clean(self.steering_loss),
+            pressure_loss=clean(self.pressure_loss),
+            achieved=clean(self.achieved),
+            rotation_credit=clean(self.rotation_credit),
+            pad_loss=clean(self.pad_loss),
+        )
+
     def to_dict(self) -> dict[str, Any]:
         """Fields keyed with SI unit suffixes."""
         return {
@@ -254,73 +265,6 @@ class StageFlight:
         }
 
 
-@dataclass(frozen=True)
-class FlightVerdict:
-    """The flight judged against the first leg's target.
-
-    ``achieved`` and ``required`` are in the target's own terms (``dimension``: a length
-    for apogee and orbit, a speed for burnout speed); ``margin = achieved - required``.
-    ``margin_delta_v`` [m/s] is the ideal delta-v that could be taken away and still meet
-    the target, found by root finding on the added payload mass ``margin_mass`` [kg]
-    (negative: the shortfall and the payload that must come off).
-    """
-
-    target: str
-    dimension: str
-    meets_targets: bool | None
-    achieved: float
-    required: float
-    margin: float
-    margin_fraction: float
-    margin_delta_v: float
-    margin_mass: float
-    required_margin_delta_v: float
-    method: str
-
-    def describe(self, format_value: Callable[[float, str], str]) -> str:
-        """The verdict in words; ``format_value(value, dimension)`` formats quantities."""
-        if self.meets_targets is None:
-            return f"No flight target to judge ({self.method})."
-        what = {"apogee": "apogee", "burnout_speed": "burnout speed", "circular_orbit": "orbit"}
-        name = what.get(self.target, self.target)
-        dv = (
-            format_value(abs(self.margin_delta_v), "speed")
-            if math.isfinite(self.margin_delta_v)
-            else "n/a"
-        )
-        mass = (
-            format_value(abs(self.margin_mass), "mass")
-            if math.isfinite(self.margin_mass)
-            else "n/a"
-        )
-        reached = self.margin >= 0
-        if self.target == "circular_orbit":
-            left = format_value(self.margin, "speed")  # delta-v left after the later legs
-            head = (
-                f"Reaches the orbit with {left} of delta-v left after the later legs"
-                if reached
-                else "Does not reach the orbit with the delta-v the later legs need"
-            )
-        else:
-            head = (
-                f"{'Reaches' if reached else 'Falls short of'} the {name} target: "
-                f"{format_value(self.achieved, self.dimension)} against "
-                f"{format_value(self.required, self.dimension)} "
-                f"({'+' if reached else ''}{format_value(self.margin, self.dimension)}, "
-                f"{self.margin_fraction:+.1%})"
-            )
-        if reached and not self.meets_targets:
-            required = format_value(self.required_margin_delta_v, "speed")
-            head += f", but the delta-v margin is below the required {required}"
-        if not math.isfinite(self.margin_mass) or self.method.startswith(("no root", "short,")):
-            tail = f"; delta-v margin: {self.method}"
-        elif self.margin_mass >= 0:
-            tail = f"; margin {dv} of ideal delta-v, as {mass} of payload that could be added"
-        else:
-            tail = f"; short by {dv} of ideal delta-v, as {mass} of payload to take off"
-        return head + tail + "."
-
-
 @dataclass
 class FlightResult:
     """The flown ascent: trajectory, events, loss ledger, verdict and warnings (SI)."""
@@ -346,6 +290,23 @@ class FlightResult:
     landing: tuple[float, float] | None = None
     """Where the flight came down, (east, north) from the site [m], when it flew to the
     ground."""
+    rtol: float = 1e-8
+    """Relative tolerance the flight was integrated to."""
+
+    @property
+    def resolution(self) -> float:
+        """The smallest ledger figure [m/s] that is not integration noise.
+
+        The integrator holds each ledger integral to about ``rtol`` of the delta-v at
+        stake: rtol times the ideal delta-v (at least 100 m/s). A term within it of zero
+        is shown as 0, and the closure as a bound below it.
+        """
+        return self.rtol * max(abs(self.ledger[-1].ideal), LEDGER_SCALE_FLOOR)
+
+    def clean_ledger(self) -> list[LossLedger]:
+        """The ledger with round-off (terms within :attr:`resolution` of zero) set to 0."""
+        resolution = self.resolution
+        return [row.cleaned(resolution) for row in self.ledger]
 
     @property
     def total(self) -> LossLedger:
@@ -364,7 +325,7 @@ class FlightResult:
 
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready results with SI unit suffixes in the keys."""
-        total = self.total
+        total = self.total.cleaned(self.resolution)
         return {
             "mission": self.mission.name,
             "source": self.mission.source,
@@ -389,8 +350,12 @@ class FlightResult:
                 "pressure_loss_m_s": total.pressure_loss,
                 "pad_loss_m_s": total.pad_loss,
                 "achieved_m_s": total.achieved,
-                "closure_m_s": total.closure,
-                "segments": [row.to_dict() for row in self.ledger[:-1]],
+                "closure_m_s": self.total.closure,
+                "resolution_m_s": self.resolution,
+                "segments": [
+                    {**row.cleaned(self.resolution).to_dict(), "closure_m_s": row.closure}
+                    for row in self.ledger[:-1]
+                ],
             },
             "events": [event.to_dict() for event in self.events],
             "orbit": None
@@ -402,19 +367,7 @@ class FlightResult:
                 "semi_major_axis_m": self.orbit.semi_major_axis,
                 "inclination_deg": math.degrees(self.orbit.inclination),
             },
-            "target": self.verdict.target,
-            "achieved": self.verdict.achieved,
-            "required": self.verdict.required,
-            "target_unit": {"length": "m", "speed": "m/s"}.get(self.verdict.dimension, ""),
-            "margin_unit": "m/s"
-            if self.verdict.target == "circular_orbit"
-            else {"length": "m", "speed": "m/s"}.get(self.verdict.dimension, ""),
-            "margin": self.verdict.margin,
-            "margin_fraction": self.verdict.margin_fraction,
-            "margin_delta_v_m_s": self.verdict.margin_delta_v,
-            "margin_payload_kg": self.verdict.margin_mass,
-            "margin_method": self.verdict.method,
-            "meets_targets": self.verdict.meets_targets,
+            **self.verdict.to_dict(),
             "warnings": [finding.__dict__ for finding in self.findings],
             "compute_time_s": self.compute_time,
         }
@@ -427,80 +380,23 @@ def flown_stages(mission: Mission) -> int:
     return mission.vehicle.stage_index(mission.legs[0].stages[-1]) + 1
 
 
-class Target:
-    """The first leg's target as a function of a batch's outcome (target terms, SI)."""
-
-    def __init__(self, mission: Mission, core: flight.FlightCore) -> None:
-        self.mission = mission
-        self.core = core
-        leg = mission.legs[0] if mission.legs else None
-        self.kind = leg.target if leg is not None else ""
-        self.required = math.nan
-        self.dimension = ""
-        self.later_need = 0.0
-        if leg is None:
-            return
-        if self.kind == "apogee":
-            self.required, self.dimension = leg.fields["altitude"], "length"
-        elif self.kind == "burnout_speed":
-            self.required, self.dimension = leg.fields["speed"], "speed"
-        elif self.kind == "circular_orbit":
-            self.required, self.dimension = leg.fields["altitude"], "length"
-            plan = budget(mission)
-            later = sum(row.required_delta_v + row.reserve for row in plan.legs[1:])
-            self.later_need = later + mission.margins.reserve
-
-    @property
-    def judged(self) -> bool:
-        """True when the flight can judge the first leg's target."""
-        return self.kind in ("apogee", "burnout_speed", "circular_orbit")
-
-    def achieved(self, core: flight.FlightCore, outcome: flight.Outcome) -> FloatArray:
-        """The achieved value per sample in target terms (NaN where not reached)."""
-        if self.kind == "apogee":
-            return outcome.value("apogee", "altitude")
-        if self.kind == "burnout_speed":
-            return outcome.value(f"burnout:{core.stages - 1}", "ground_speed")
-        if self.kind == "circular_orbit":
-            return outcome.final("altitude_sea_level")
-        return np.full(core.n, math.nan)
-
-    def metric(self, core: flight.FlightCore, outcome: flight.Outcome) -> FloatArray:
-        """Signed distance to the target per sample: >= 0 meets it (target terms or m/s)."""
-        if self.kind != "circular_orbit":
-            achieved = self.achieved(core, outcome)
-            return np.where(np.isfinite(achieved), achieved - self.required, -self.required)
-        return self.orbit_margin(core, outcome)
-
-    def orbit_margin(self, core: flight.FlightCore, outcome: flight.Outcome) -> FloatArray:
-        """Delta-v left after cutoff beyond the later legs' need [m/s]; negative if short."""
-        last = core.stages - 1
-        state = outcome.state("final")
-        mass_end = state[:, layout.Y_M]
-        ignition_mass = outcome.state(f"ignition:{last}")[:, layout.Y_M]
-        burnt = ignition_mass - mass_end
-        remaining = np.maximum(core.usable[last] - burnt, 0.0)
-        isp_g0 = core.thrust_vacuum[last] / np.maximum(core.mass_flow[last], 1e-30)
-        left = isp_g0 * np.log(mass_end / (mass_end - remaining))
-        perigee = perigee_altitude(state)
-        reached = (outcome.status == "orbit") & (perigee >= MIN_PERIGEE)
-        speed = outcome.final("inertial_speed")
-        energy = outcome.final("energy")
-        deficit = (energy - core.cutoff_energy) / np.maximum(speed, 1.0)
-        return np.where(reached, left - self.later_need, np.minimum(deficit, 0.0) - self.later_need)
-
-
 def tune_kick(
-    mission: Mission, span: float = math.radians(6.0), count: int = 49
+    mission: Mission,
+    span: float = math.radians(6.0),
+    count: int = 49,
+    core: flight.FlightCore | None = None,
 ) -> tuple[float, float]:
     """The pitch kick angle that leaves the most delta-v after an orbital ascent.
 
     One batched flight over ``count`` kick angles within ``span`` [rad] either side of
-    the mission's own; an ascent counts only when its perigee is at least
-    ``MIN_PERIGEE``. Returns (angle [rad], delta-v left beyond the later legs [m/s]);
-    the margin is -inf when no angle reaches the orbit.
+    the mission's own (of sample 0 of ``core`` when given: a vehicle with a margin held
+    back, say); an ascent counts only when its perigee is at least ``MIN_PERIGEE``, and
+    those whose perigee and apogee lie within the target's tolerance band come first.
+    Returns (angle [rad], delta-v left beyond the later legs [m/s]); the delta-v is -inf
+    when no angle reaches the orbit.
     """
-    core = flight.build_core(mission, flown_stages(mission))
+    if core is None:
+        core = flight.build_core(mission, flown_stages(mission))
     target = Target(mission, core)
     if target.kind != "circular_orbit":
         raise ValueError("kick tuning is for circular_orbit targets")
@@ -510,13 +406,17 @@ def tune_kick(
     batch = core.take(np.zeros(count, dtype=np.int64))
     batch.kick_angle = angles
     outcome = flight.simulate(batch)
-    margins = target.metric(batch, outcome)
+    margins = target.energy_margin(batch, outcome)
     reached = (outcome.status == "orbit") & (
         perigee_altitude(outcome.state("final")) >= MIN_PERIGEE
     )
     if not np.any(reached):
         return float(core.kick_angle[0]), -math.inf
-    best = int(np.argmax(np.where(reached, margins, -np.inf)))
+    # prefer the angles whose orbit lies within the target's tolerance band
+    band = target.judge(batch, outcome).target_margin
+    in_band = reached & np.isfinite(band) & (band >= 0)
+    candidates = in_band if np.any(in_band) else reached
+    best = int(np.argmax(np.where(candidates, margins, -np.inf)))
     return float(angles[best]), float(margins[best])
 
 
@@ -537,70 +437,6 @@ def bad_ignitions(core: flight.FlightCore, outcome: flight.Outcome) -> np.ndarra
         )
         flagged |= lit & bad
     return flagged
-
-
-def stack_delta_v(core: flight.FlightCore, added: float) -> float:
-    """Ideal delta-v of the flown stages of sample 0 with ``added`` payload mass [m/s]."""
-    mass = float(core.mass_initial[0]) + added
-    total = 0.0
-    for k in range(core.stages):
-        if core.is_motor[k]:
-            isp_g0 = core.curve_impulse[k] / float(core.usable[k, 0])
-        else:
-            isp_g0 = float(core.thrust_vacuum[k, 0] / core.mass_flow[k, 0])
-        final = mass - float(core.usable[k, 0])
-        total += isp_g0 * math.log(mass / final)
-        mass = final - float(core.inert[k, 0] + core.propellant[k, 0] - core.usable[k, 0])
-    return total
-
-
-def _payload_margin(
-    core: flight.FlightCore, target: Target, nominal: float, payload: float, rtol: float
-) -> tuple[float, float, str]:
-    """Payload mass that can be added (negative: removed) so the target is just met.
-
-    Root finding on the simulation, batched: a first batch of trial masses brackets the
-    root, a second batch narrows the bracket, and the secant through the bracket's ends
-    gives the mass. Returns (mass [kg], ideal delta-v it costs [m/s], method text).
-    """
-    liftoff = float(core.mass_initial[0])
-    if nominal >= 0:
-        trials = liftoff * np.array([0.0, 0.005, 0.01, 0.02, 0.05, 0.1, 0.2, 0.5, 1, 2, 5, 10, 20])
-    elif payload > 0:
-        trials = -payload * np.array([0.0, 0.05, 0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9, 1.0])
-    else:
-        return math.nan, math.nan, "short, and there is no payload to take off"
-
-    def evaluate(masses: FloatArray) -> FloatArray:
-        batch = core.take(np.zeros(masses.size, dtype=np.int64))
-        batch.mass_initial = batch.mass_initial + masses
-        return target.metric(batch, flight.simulate(batch, rtol=rtol))
-
-    values = evaluate(trials)
-    for _ in range(2):
-        sign_change = np.flatnonzero(np.sign(values[:-1]) != np.sign(values[1:]))
-        if not sign_change.size:
-            edge = trials[-1]
-            note = "more than" if nominal >= 0 else "even with all of it"
-            return (
-                edge,
-                stack_delta_v(core, 0.0) - stack_delta_v(core, edge),
-                (f"no root in the searched range: {note} {abs(edge):.4g} kg of payload"),
-            )
-        i = sign_change[0]
-        low, high = trials[i], trials[i + 1]
-        trials = np.linspace(low, high, 10)
-        values = evaluate(trials)
-    i = np.flatnonzero(np.sign(values[:-1]) != np.sign(values[1:]))
-    i = i[0] if i.size else 0
-    a, b, fa, fb = trials[i], trials[i + 1], values[i], values[i + 1]
-    mass = a - fa * (b - a) / (fb - fa) if fb != fa else a
-    cost = stack_delta_v(core, 0.0) - stack_delta_v(core, float(mass))
-    return (
-        float(mass),
-        cost,
-        "payload added until the target is just met (root finding on the simulation)",
-    )
 
 
 def _event(outcome: flight.Outcome, name: str, key: str) -> FlightEvent | None:
@@ -669,8 +505,8 @@ def fly(mission: Mission, rtol: float = 1e-8, margin: bool = True) -> FlightResu
     rtol : float
         Relative tolerance of the integrator [dimensionless].
     margin : bool
-        Find the margin in delta-v terms by root finding on added payload (several more
-        flights, batched).
+        Find the propulsion and payload margins by root finding on the flight (a few
+        more batches of flights); without, the verdict judges the target alone.
 
     Returns
     -------
@@ -738,7 +574,6 @@ def fly(mission: Mission, rtol: float = 1e-8, margin: bool = True) -> FlightResu
                 ignition_tilt=float(outcome.value(ignition, "tilt")[0]),
             )
         )
-    target = Target(mission, core)
     status = str(outcome.status[0])
     orbit = None
     if core.round_earth and status in ("orbit", "burnout"):
@@ -746,7 +581,7 @@ def fly(mission: Mission, rtol: float = 1e-8, margin: bool = True) -> FlightResu
         orbit = osculating_orbit(
             final[layout.Y_R : layout.Y_R + 3], final[layout.Y_V : layout.Y_V + 3]
         )
-    verdict = _verdict(mission, core, outcome, target, margin, rtol)
+    verdict = judge_flight(mission, core, outcome, margins=margin, rtol=rtol)
     landing = None
     if outcome.happened("ground")[0]:
         landing = (
@@ -772,6 +607,7 @@ def fly(mission: Mission, rtol: float = 1e-8, margin: bool = True) -> FlightResu
         rail_exit_speed=float(outcome.value("rail_exit", "ground_speed")[0]),
         orbit=orbit,
         compute_time=compute_time,
+        rtol=rtol,
         landing=landing,
     )
     # the liftoff thrust-to-weight rule is the budget's (it knows the propellant family's
@@ -807,67 +643,6 @@ def _ledger(core: flight.FlightCore, outcome: flight.Outcome) -> list[LossLedger
         rows.append(row(core.stage_names[a], a, b))
     rows.append(row("whole flight", 0, core.stages))
     return rows
-
-
-def _verdict(
-    mission: Mission,
-    core: flight.FlightCore,
-    outcome: flight.Outcome,
-    target: Target,
-    margin: bool,
-    rtol: float,
-) -> FlightVerdict:
-    plan = budget(mission)
-    required_dv = plan.verdict.required_margin if mission.legs else 0.0
-    if not target.judged:
-        reason = "the first leg's target is not flown" if mission.legs else "no legs stated"
-        return FlightVerdict(
-            target.kind,
-            "",
-            None,
-            math.nan,
-            math.nan,
-            math.nan,
-            math.nan,
-            math.nan,
-            math.nan,
-            required_dv,
-            reason,
-        )
-    achieved = float(target.achieved(core, outcome)[0])
-    nominal = float(target.metric(core, outcome)[0])
-    if target.kind == "circular_orbit":
-        margin_value = nominal
-        fraction = (
-            nominal / plan.verdict.total_required if plan.verdict.total_required else math.nan
-        )
-    else:
-        margin_value = achieved - target.required if math.isfinite(achieved) else -target.required
-        fraction = margin_value / target.required
-    mass = dv = math.nan
-    method = "not computed (the target alone is judged)"
-    if margin:
-        mass, dv, method = _payload_margin(
-            core, target, nominal, mission.vehicle.payload_mass, rtol
-        )
-        if target.kind == "circular_orbit":
-            dv = nominal
-    # the payload search resolves the delta-v margin to about 1e-4; judge to 1e-3
-    tolerance = max(1e-3 * required_dv, 1e-6)
-    meets = nominal >= 0 and (not math.isfinite(dv) or dv >= required_dv - tolerance)
-    return FlightVerdict(
-        target=target.kind,
-        dimension=target.dimension,
-        meets_targets=bool(meets),
-        achieved=achieved,
-        required=target.required,
-        margin=margin_value,
-        margin_fraction=fraction,
-        margin_delta_v=dv,
-        margin_mass=mass,
-        required_margin_delta_v=required_dv,
-        method=method,
-    )
 
 
 def _findings(result: FlightResult, core: flight.FlightCore) -> list[Finding]:

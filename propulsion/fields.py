@@ -18,7 +18,15 @@ from propulsion.errors import PropulsionError
 from propulsion.targets import TARGET_KINDS
 from propulsion.units import DIMENSIONS, UnitParseError, parse_quantity
 
-__all__ = ["FieldError", "FieldRef", "get_value", "numeric_fields", "resolve", "set_value"]
+__all__ = [
+    "LIMITS",
+    "FieldError",
+    "FieldRef",
+    "get_value",
+    "numeric_fields",
+    "resolve",
+    "set_value",
+]
 
 # field name -> dimension, per table kind; "count" is a whole number
 _TABLES: dict[str, dict[str, str]] = {
@@ -74,6 +82,17 @@ _TABLES: dict[str, dict[str, str]] = {
     },
 }
 
+
+# the range the mission loader accepts for each dimensionless field (one source for the
+# loader's checks and for the default search range of `size`)
+LIMITS: dict[str, tuple[float, float]] = {
+    "drag_scale": (0.0, 10.0),
+    "impulse_scale": (0.0, 10.0),
+    "burn_time_scale": (0.0, 10.0),
+    "residual_fraction": (0.0, 0.5),
+    "tank_fraction": (0.0, 1.0),
+    "propellant_mass_fraction": (0.0, 1.0),
+}
 
 # values a field takes when the file does not give it (a cluster of one, no scaling...)
 _DEFAULTS: dict[str | int, float | None] = {

@@ -15,12 +15,13 @@ import math
 import re
 import tomllib
 from collections.abc import Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
 from propulsion import catalog
 from propulsion.errors import DataFileError, MissionError, MissionFileNotFoundError
+from propulsion.fields import LIMITS
 from propulsion.targets import TARGET_KINDS, Requirement, required_delta_v
 from propulsion.units import UnitParseError, parse_quantity
 from propulsion.vehicle import DragCurve, Engine, Motor, Stage, Vehicle
@@ -134,18 +135,42 @@ class Leg:
         return self.requirement.delta_v
 
 
+FLIGHT_JUDGES = ("target", "propulsion", "payload")
+"""The margins the verdict of a flight can judge (:mod:`propulsion.margins`)."""
+
+
+@dataclass(frozen=True)
+class FlightMargin:
+    """Which margin the verdict of a flight judges, and how much of it it asks for.
+
+    ``judge`` is ``target`` (the target's own quantity: metres of apogee or perigee,
+    m/s of burnout speed), ``propulsion`` (the uniform impulse shortfall that still meets
+    the target) or ``payload`` (the mass that could be added). ``required`` is in SI
+    units of that margin ([m] or [m/s] for target, [m/s] of ideal delta-v for
+    propulsion, [kg] for payload) or, when ``is_fraction``, a fraction (of the target's
+    value, of the total impulse, of the payload mass).
+    """
+
+    judge: str = "target"
+    required: float = 0.0
+    is_fraction: bool = False
+
+
 @dataclass(frozen=True)
 class Margins:
-    """Reserves and the margin the verdict is judged against.
+    """Reserves, the margin the budget's verdict asks for, and the flight's.
 
     ``required_margin`` is a delta-v [m/s] when ``required_margin_is_fraction`` is False,
-    else a fraction of the total required delta-v.
+    else a fraction of the total required delta-v; it is the ideal budget's (`budget`).
+    ``flight`` is what the verdict of a flown ascent judges (`fly`): it never depends on
+    the loss allowances.
     """
 
     reserve: float = 0.0
     residual_fraction: float = 0.0
     required_margin: float = 0.0
     required_margin_is_fraction: bool = False
+    flight: FlightMargin = field(default_factory=FlightMargin)
 
     def required_margin_delta_v(self, total_required: float) -> float:
         """The required margin as a delta-v [m/s] for a given total requirement [m/s]."""
@@ -494,7 +519,8 @@ _ENGINE = {
 }
 _LEG_BASE = {"name", "stages", "target", "reserve"}
 _LEG_FIELDS = {name for kind in TARGET_KINDS.values() for name in (*kind.required, *kind.optional)}
-_MARGINS = {"reserve", "residual_fraction", "required_margin"}
+_MARGINS = {"reserve", "residual_fraction", "required_margin", "flight"}
+_FLIGHT_MARGIN = {"judge", "required"}
 
 
 class _Builder:
@@ -574,8 +600,8 @@ class _Builder:
             "drag_scale",
             "dimensionless",
             default=1.0,
-            low=0.0,
-            high=10.0,
+            low=LIMITS["drag_scale"][0],
+            high=LIMITS["drag_scale"][1],
             expected="a factor from 0 to 10 on every drag coefficient",
         )
         vehicle = Vehicle(
@@ -585,6 +611,12 @@ class _Builder:
             drag_scale=float(drag_scale if drag_scale is not None else 1.0),
         )
         legs = self._legs(top, vehicle, launch)
+        margins_table = top.table("margins", _MARGINS)
+        if margins_table is not None:
+            flight_margin = self._flight_margin(
+                margins_table.table("flight", _FLIGHT_MARGIN), legs, vehicle
+            )
+            margins = replace(margins, flight=flight_margin)
         return Mission(
             name=name,
             vehicle=vehicle,
@@ -821,8 +853,8 @@ class _Builder:
             "residual_fraction",
             "dimensionless",
             default=0.0,
-            low=0.0,
-            high=0.5,
+            low=LIMITS["residual_fraction"][0],
+            high=LIMITS["residual_fraction"][1],
             expected="a fraction from 0 to 50 %",
         )
         required_margin = 0.0
@@ -852,6 +884,60 @@ class _Builder:
             except MissionError as exc:
                 raise table.error("required_margin", exc.problem, both) from None
         return Margins(float(reserve or 0.0), float(residual or 0.0), required_margin, is_fraction)
+
+    def _flight_margin(
+        self, table: _Table | None, legs: list[Leg], vehicle: Vehicle
+    ) -> FlightMargin:
+        if table is None:
+            return FlightMargin()
+        judge = table.string("judge", default="target")
+        if judge not in FLIGHT_JUDGES:
+            raise table.error(
+                "judge",
+                f"unknown margin '{judge}'{_suggest(judge, FLIGHT_JUDGES)}",
+                "one of: " + ", ".join(FLIGHT_JUDGES),
+            )
+        target = legs[0].target if legs else ""
+        if judge == "target":
+            dimension = {"apogee": "length", "circular_orbit": "length"}.get(target, "speed")
+            what = {
+                "apogee": 'metres of apogee such as "100 m"',
+                "circular_orbit": 'kilometres of perigee such as "5 km"',
+                "burnout_speed": 'm/s of burnout speed such as "20 m/s"',
+            }.get(target, "the target's own quantity")
+            expected = f'{what}, or a percentage of the target such as "5 %"'
+        elif judge == "propulsion":
+            dimension = "speed"
+            expected = (
+                'a percentage of the total impulse such as "5 %", or ideal delta-v such as "50 m/s"'
+            )
+        else:
+            dimension = "mass"
+            expected = 'a payload mass such as "0.2 kg", or a percentage of the payload'
+        if not table.has("required"):
+            return FlightMargin(judge, 0.0, False)
+        value = table.data["required"]
+        is_fraction = isinstance(value, int | float) and not isinstance(value, bool)
+        if isinstance(value, str):
+            try:
+                parse_quantity(value, dimension)
+            except UnitParseError:
+                is_fraction = True
+        if is_fraction and judge == "payload" and vehicle.payload_mass <= 0.0:
+            raise table.error(
+                "required", "is a percentage of the payload, and the payload is 0 kg", expected
+            )
+        try:
+            required = table.quantity(
+                "required",
+                "dimensionless" if is_fraction else dimension,
+                low=0.0,
+                high=10.0 if is_fraction else None,
+                expected=expected,
+            )
+        except MissionError as exc:
+            raise table.error("required", exc.problem, expected) from None
+        return FlightMargin(judge, float(required or 0.0), is_fraction)
 
     def _drag_curve(self, table: _Table, key: str, name: str | None) -> DragCurve | None:
         if name is None:
@@ -970,13 +1056,24 @@ class _Builder:
                     f"is {fraction:g}: the inert mass would be absurdly large",
                     "a fraction of at least 0.001",
                 )
+        if motor_table is not None and table.has("residual_fraction"):
+            # one definition of a residual in budget and flight: propellant an engine
+            # stage carries and never burns. A motor burns to depletion, and its thrust
+            # curve's impulse is what its propellant delivers.
+            raise table.error(
+                "residual_fraction",
+                "a motor stage takes no residual: a motor burns all its propellant, and "
+                "its thrust curve already gives the impulse it delivers",
+                "residual_fraction on engine stages only (scale a motor's impulse with "
+                "impulse_scale instead)",
+            )
         residual = table.quantity(
             "residual_fraction",
             "dimensionless",
             # a motor burns to depletion: the mission-wide residual is for engine stages
             default=0.0 if motor_table is not None else margins.residual_fraction,
-            low=0.0,
-            high=0.5,
+            low=LIMITS["residual_fraction"][0],
+            high=LIMITS["residual_fraction"][1],
             expected="a fraction from 0 to 50 %",
         )
         stage_diameter = table.quantity(
@@ -990,7 +1087,11 @@ class _Builder:
         drag_name = table.string("drag_curve", default="") or None
         stage_drag = self._drag_curve(table, "drag_curve", drag_name) if drag_name else drag
         tank = table.quantity(
-            "tank_fraction", "dimensionless", low=0.0, high=1.0, expected="a fraction from 0 to 1"
+            "tank_fraction",
+            "dimensionless",
+            low=LIMITS["tank_fraction"][0],
+            high=LIMITS["tank_fraction"][1],
+            expected="a fraction from 0 to 1",
         )
         separation = table.quantity("separation_delay", "time", default=0.0, low=0.0, high=3600)
         ignition = table.quantity("ignition_delay", "time", default=0.0, low=0.0, high=1e5)
@@ -1071,17 +1172,17 @@ class _Builder:
         impulse_scale = table.quantity(
             "impulse_scale",
             "dimensionless",
-            low=0.0,
+            low=LIMITS["impulse_scale"][0],
             low_inclusive=False,
-            high=10.0,
+            high=LIMITS["impulse_scale"][1],
             expected="a factor above 0 on the total impulse",
         )
         time_scale = table.quantity(
             "burn_time_scale",
             "dimensionless",
-            low=0.0,
+            low=LIMITS["burn_time_scale"][0],
             low_inclusive=False,
-            high=10.0,
+            high=LIMITS["burn_time_scale"][1],
             expected="a factor above 0 on the burn time",
         )
         if impulse_scale is not None or time_scale is not None:

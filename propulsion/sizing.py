@@ -22,7 +22,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from propulsion import ascent, fields, flight
+from propulsion import ascent, fields, flight, margins
 from propulsion.errors import PropulsionError, RequestError
 from propulsion.ledger import BudgetResult, budget
 from propulsion.mission import Mission, parse_mission
@@ -66,6 +66,13 @@ class SizingSolution:
     sensitivity: float
     evaluations: int
     message: str
+    peak_value: float = math.nan
+    """Where the margin peaks inside the range when no value meets the target [SI unit of
+    the field] (NaN when it rises or falls all the way: then the range's end is nearest)."""
+    peak_margin: float = math.nan
+    """The margin at that peak (negative: the target is out of reach) [as ``margin``]."""
+    peak_achieved: float = math.nan
+    """The target quantity at that peak [as ``achieved``]."""
 
 
 @dataclass
@@ -101,6 +108,11 @@ class SizingResult:
             "sensitivity": solution.sensitivity,
             "evaluations": solution.evaluations,
             "message": solution.message,
+            "peak_value": solution.peak_value if math.isfinite(solution.peak_value) else None,
+            "peak_margin": solution.peak_margin if math.isfinite(solution.peak_margin) else None,
+            "peak_achieved": solution.peak_achieved
+            if math.isfinite(solution.peak_achieved)
+            else None,
         }
 
     def to_dict(self) -> dict[str, Any]:
@@ -202,7 +214,8 @@ def _find_root(
             if f(float(value)) >= 0:
                 return True, float(value), f"smallest whole number that meets it: {value}", count
         return False, math.nan, f"no whole number from {first} to {int(high)} meets it", count
-    x0 = min(max(start, low), high) if start > 0 else max(low, 1e-6 * max(high, 1.0))
+    # the current value itself (0 included), so "at the current value" means it
+    x0 = min(max(start, low), high)
     f0 = f(x0)
     # search outward both ways (factors of two); the first bracket found is the root
     # nearest the current value, on whichever side it lies
@@ -244,6 +257,48 @@ def _find_root(
     )
 
 
+@dataclass(frozen=True)
+class _Peak:
+    value: float
+    margin: float
+    evaluations: int
+
+
+def _find_peak(
+    metric: Callable[[float], float], low: float, high: float, points: int = 33
+) -> _Peak | None:
+    """Where a margin that never reaches zero peaks inside [low, high], if it does.
+
+    A grid of ``points`` values (geometric when the range spans more than two decades and
+    starts above zero) finds the largest margin; when it lies inside the range, Brent's
+    bounded method refines it between its neighbours [R. P. Brent, Algorithms for
+    Minimization without Derivatives, 1973, ch. 5, as scipy.optimize.minimize_scalar].
+    None when the margin is largest at an end of the range (it only rises or falls).
+    """
+    from scipy.optimize import minimize_scalar
+
+    if low > 0 and high / low > 100:
+        grid = np.geomspace(low, high, points)
+    else:
+        grid = np.linspace(low, high, points)
+    values = np.array([metric(float(x)) for x in grid])
+    i = int(np.argmax(values))
+    if i in (0, points - 1) or not np.isfinite(values[i]):
+        return None
+    left, right = float(grid[i - 1]), float(grid[i + 1])
+    found = minimize_scalar(
+        lambda x: -metric(float(x)),
+        bounds=(left, right),
+        method="bounded",
+        options={"xatol": 1e-6 * (right - left)},
+    )
+    best = float(found.x)
+    margin = metric(best)
+    if margin < values[i]:
+        best, margin = float(grid[i]), float(values[i])
+    return _Peak(best, margin, points + int(found.nfev) + 1)
+
+
 def size(
     mission: Mission,
     vary: str,
@@ -265,8 +320,9 @@ def size(
         A new value for the first leg's target, with units (``"3 km"`` of apogee), or None
         to keep the mission's.
     bounds : (float, float) or None
-        The range searched [SI unit of the field]; by default 1/1000 to 1000 times the
-        current value (counts: 1 to 64).
+        The range searched [SI unit of the field]; by default the whole range a
+        dimensionless field may take, 0 to 1000 times the lift-off mass for the payload,
+        1/1000 to 1000 times the current value otherwise (counts: 1 to 64).
     tank_fraction : float or None
         Inert mass added per unit of added propellant, overriding the stage's.
     progress : callable or None
@@ -303,11 +359,7 @@ def size(
         raise SizingError(f"the mission does not give {vary}; set it in the file first")
     target_value = mission.legs[0].fields[key]
     if bounds is None:
-        bounds = (1.0, 64.0) if ref.is_count else (initial / 1000.0, max(initial, 1e-9) * 1000.0)
-        if ref.path[-1] == "payload":
-            bounds = (0.0, max(mission.vehicle.liftoff_mass, initial) * 1000.0)
-        if ref.dimension == "dimensionless":
-            bounds = (1e-6, 1.0 - 1e-6)
+        bounds = _default_bounds(ref, initial, mission)
     low, high = bounds
     if not (math.isfinite(low) and math.isfinite(high)) or low >= high:
         raise SizingError(f"the range {low:g}..{high:g} is empty")
@@ -330,6 +382,15 @@ def size(
         _finite(budget_metric), initial, low, high, ref.is_count, 1e-10
     )
     budget_result = budget(problem.mission_at(value)) if found else None
+    peak = None if found or ref.is_count else _find_peak(_finite(budget_metric), low, high)
+    if peak is not None:
+        count += peak.evaluations
+        peaked = budget(problem.mission_at(peak.value))
+        message = (
+            f"out of reach: the delta-v margin peaks at {peak.margin:+.4g} m/s at "
+            f"{_value_text(peak.value, ref)}, inside the range searched, and falls away "
+            "on either side"
+        )
     budget_solution = SizingSolution(
         method="ideal budget (loss allowance)",
         found=found,
@@ -339,31 +400,32 @@ def size(
         sensitivity=_derivative(budget_metric, value, ref.is_count) if found else math.nan,
         evaluations=count,
         message=message,
+        peak_value=peak.value if peak else math.nan,
+        peak_margin=peak.margin if peak else math.nan,
+        peak_achieved=peaked.total_ideal_delta_v if peak else math.nan,
     )
 
     # -- the flight simulation ------------------------------------------------------------
     def flight_quantity(value: float) -> tuple[float, float]:
+        """(margin in the target's terms, achieved) of the vehicle at ``value`` flown with
+        the margin the verdict asks for held back (:func:`margins.hold_margin`)."""
         candidate = problem.mission_at(value)
         core = flight.build_core(candidate, ascent.flown_stages(candidate))
-        target_ = ascent.Target(candidate, core)
-        required = budget(candidate).verdict.required_margin
+        target_ = margins.Target(candidate, core)
+        held, offset = margins.hold_margin(candidate, core, target_)
         if kind == "circular_orbit":
             # an open-loop pitch programme suits one vehicle only: re-tune the kick for
             # each candidate (one batched flight over kick angles) so the sizing compares
             # each vehicle flown its best
-            _, left = ascent.tune_kick(candidate, count=25)
+            _, left = ascent.tune_kick(candidate, count=25, core=held)
             note(f"flight at {value:.6g}")
             if not math.isfinite(left):
                 left = -1e6
-            return left - required, left
-        added = _mass_for_delta_v(core, required)
-        if not math.isfinite(added):  # the whole ideal delta-v is less than the margin
-            return -target_.required, math.nan
-        core.mass_initial = core.mass_initial + added
-        outcome = flight.simulate(core)
+            return left - offset, left
+        outcome = flight.simulate(held)
         note(f"flight at {value:.6g}")
-        achieved = float(target_.achieved(core, outcome)[0])
-        return float(target_.metric(core, outcome)[0]), achieved
+        achieved = float(target_.achieved(held, outcome)[0])
+        return float(target_.metric(held, outcome)[0]) - offset, achieved
 
     def flight_metric(value: float) -> float:
         try:
@@ -371,6 +433,7 @@ def size(
         except PropulsionError:
             return -math.inf if value < initial else math.inf
 
+    peak = None
     if kind == "delta_v":
         found, value, count = False, math.nan, 0
         message = "a delta_v target has no flight quantity to meet; the budget column answers"
@@ -378,11 +441,30 @@ def size(
         found, value, message, count = _find_root(
             _finite(flight_metric), initial, low, high, ref.is_count, flight_tolerance
         )
+        if not found and not ref.is_count:
+            peak = _find_peak(_finite(flight_metric), low, high)
+    peak_achieved = math.nan
+    if peak is not None:
+        count += peak.evaluations
+        peak_achieved = flight_quantity(peak.value)[1]
+        quantity = {
+            "apogee": "the apogee",
+            "burnout_speed": "the burnout speed",
+            "circular_orbit": "the delta-v left after the later legs",
+        }[kind]
+        unit = {"apogee": "m", "burnout_speed": "m/s", "circular_orbit": "m/s"}[kind]
+        message = (
+            f"out of reach: {quantity} peaks at {peak_achieved:,.4g} {unit} at "
+            f"{_value_text(peak.value, ref)}, inside the range searched (margin "
+            f"{peak.margin:+.4g} {unit} there), and falls away on either side"
+        )
     flight_result = None
     if found:
         solved = problem.mission_at(value)
         if kind == "circular_orbit":
-            angle, _ = ascent.tune_kick(solved, count=25)
+            solved_core = flight.build_core(solved, ascent.flown_stages(solved))
+            held, _ = margins.hold_margin(solved, solved_core, margins.Target(solved, solved_core))
+            angle, _ = ascent.tune_kick(solved, count=25, core=held)
             kick = fields.FieldRef(
                 "flight.pitch_kick_angle", ("flight", "pitch_kick_angle"), "angle"
             )
@@ -406,6 +488,9 @@ def size(
         else math.nan,
         evaluations=count,
         message=message,
+        peak_value=peak.value if peak else math.nan,
+        peak_margin=peak.margin if peak else math.nan,
+        peak_achieved=peak_achieved,
     )
     return SizingResult(
         mission=mission,
@@ -420,6 +505,31 @@ def size(
         budget_result=budget_result,
         flight_result=flight_result,
     )
+
+
+def _default_bounds(ref: fields.FieldRef, initial: float, mission: Mission) -> tuple[float, float]:
+    """The range `size` searches when none is given [SI unit of the field].
+
+    Counts: 1 to 64. A dimensionless field: the whole range the mission file allows for it
+    (:data:`propulsion.fields.LIMITS`), its open ends nudged inside. The payload: 0 to a
+    thousand times the lift-off mass. Other quantities: a thousandth to a thousand times
+    the current value.
+    """
+    if ref.is_count:
+        return 1.0, 64.0
+    name = str(ref.path[-1])
+    if ref.dimension == "dimensionless":
+        low, high = fields.LIMITS.get(name, (0.0, 1.0))
+        span = high - low
+        return low + 1e-6 * span, high - (1e-6 * span if high <= 1.0 else 0.0)
+    if name == "payload":
+        return 0.0, max(mission.vehicle.liftoff_mass, initial) * 1000.0
+    return initial / 1000.0, max(initial, 1e-9) * 1000.0
+
+
+def _value_text(value: float, ref: fields.FieldRef) -> str:
+    unit = ref.si_unit
+    return f"{ref.name} = {value:.4g}{' ' + unit if unit else ''}"
 
 
 def _finite(metric: Callable[[float], float]) -> Callable[[float], float]:
@@ -440,20 +550,3 @@ def _derivative(function: Callable[[float], float], value: float, integer: bool)
         return function(value + 1) - function(value)
     step = 1e-3 * abs(value) if value else 1e-6
     return (function(value + step) - function(value - step)) / (2 * step)
-
-
-def _mass_for_delta_v(core: flight.FlightCore, delta_v: float) -> float:
-    """Payload mass whose addition costs ``delta_v`` of ideal delta-v [kg]."""
-    from scipy.optimize import brentq
-
-    if delta_v <= 0:
-        return 0.0
-    nominal = ascent.stack_delta_v(core, 0.0)
-    if delta_v >= nominal:
-        return math.inf
-    high = float(core.mass_initial[0])
-    while nominal - ascent.stack_delta_v(core, high) < delta_v:
-        high *= 2
-    return float(
-        brentq(lambda m: nominal - ascent.stack_delta_v(core, m) - delta_v, 0.0, high, xtol=1e-12)
-    )

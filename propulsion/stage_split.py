@@ -3,8 +3,10 @@
 The ideal optimum is the classical Lagrange-multiplier solution (:mod:`propulsion.staging`)
 for the mission's total requirement, checked against a direct numerical optimisation. The
 loss-aware optimum flies candidate stacks: for each split of the delta-v between stages,
-a batched flight finds the smallest stack that meets the first leg's target with its
-margin, and a bounded minimisation over the split finds the lightest. Stacks are resized
+a batched flight finds the smallest stack that meets the first leg's target with the
+margin the flight's verdict asks for (``[margins.flight]``, held back as
+:func:`propulsion.margins.hold_margin` does), and a bounded minimisation over the split
+finds the lightest. Stacks are resized
 at constant structural coefficient, with the engines scaled to keep each stage's
 thrust-to-weight at ignition (a "rubber engine" assumption, stated in the result).
 """
@@ -18,12 +20,11 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from propulsion import ascent, flight
+from propulsion import ascent, flight, margins
 from propulsion.constants import STANDARD_GRAVITY
 from propulsion.errors import RequestError
 from propulsion.ledger import budget
 from propulsion.mission import Mission
-from propulsion.sizing import _mass_for_delta_v
 from propulsion.staging import StagingSolution, direct_staging, optimal_staging
 from propulsion.vehicle import Engine
 
@@ -300,8 +301,7 @@ def _loss_aware(
             0,
             "the first leg does not fly every stage",
         )
-    target = ascent.Target(mission, base)
-    required_margin = budget(mission).verdict.required_margin
+    target = margins.Target(mission, base)
     c = isp * STANDARD_GRAVITY
     above_payload = float(base.mass_initial[0]) - sum(
         float(base.inert[k, 0] + base.propellant[k, 0]) for k in range(base.stages)
@@ -343,10 +343,6 @@ def _loss_aware(
             core.mass_flow[k, j] = base.mass_flow[k, 0] * scale
         core.mass_initial[j] = above_payload + float(stack.sum())
         core.kick_angle[j] = kick
-        if not orbital:
-            # the required delta-v margin rides along as payload (as `size` does)
-            one = core.take(np.array([j], dtype=np.int64))
-            core.mass_initial[j] += _mass_for_delta_v(one, required_margin)
 
     def liftoff_for(share: float) -> tuple[float, FloatArray, FloatArray]:
         """Smallest total delta-v (batched grids, narrowed three times) that meets the target."""
@@ -367,13 +363,15 @@ def _loss_aware(
                 stack = stacks[i]
                 assert stack is not None
                 column(core, j, stack, float(kick))
-            outcome = flight.simulate(core, rtol=1e-7)
+            # the margin the flight's verdict asks for is held back (as `size` does)
+            held, offset = margins.hold_margin(mission, core, target)
+            outcome = flight.simulate(held, rtol=1e-7)
             flights += len(columns)
-            metric = target.metric(core, outcome)
+            metric = target.metric(held, outcome) - offset
             if orbital:
-                perigee = ascent.perigee_altitude(outcome.state("final"))
-                reached = (outcome.status == "orbit") & (perigee >= ascent.MIN_PERIGEE)
-                metric = np.where(reached, metric - required_margin, -1e9)
+                perigee = margins.perigee_altitude(outcome.state("final"))
+                reached = (outcome.status == "orbit") & (perigee >= margins.MIN_PERIGEE)
+                metric = np.where(reached, metric, -1e9)
             per_total: dict[int, float] = {}
             for j, (i, _) in enumerate(columns):
                 per_total[i] = max(per_total.get(i, -math.inf), float(metric[j]))

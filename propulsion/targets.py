@@ -141,7 +141,7 @@ TARGET_KINDS: dict[str, TargetKind] = {
             "reach a circular orbit (with Earth's rotation when the launch site gives "
             "latitude and azimuth)",
             {"altitude": "length", "loss_allowance": "speed"},
-            {},
+            {"tolerance": "length"},
             _circular_orbit,
         ),
         TargetKind(

@@ -392,11 +392,11 @@ CASES: list[Case] = [
     (
         "nan-residual-fraction",
         edit(
-            MOTOR_MISSION,
-            'inert_mass = "1.15 kg"',
-            'inert_mass = "1.15 kg"\nresidual_fraction = nan',
+            ENGINE_MISSION,
+            'inert_mass = "250 kg"',
+            'inert_mass = "250 kg"\nresidual_fraction = nan',
         ),
-        "stage[1].residual_fraction",
+        "stage[2].residual_fraction",
         "a finite number",
         "residual_fraction",
     ),
@@ -898,9 +898,9 @@ def test_errors_pickle(make: Callable[[], Exception]) -> None:
     "text",
     [
         edit(
-            MOTOR_MISSION,
-            'inert_mass = "1.15 kg"',
-            f'inert_mass = "1.15 kg"\nresidual_fraction = {10**400}',
+            ENGINE_MISSION,
+            'inert_mass = "250 kg"',
+            f'inert_mass = "250 kg"\nresidual_fraction = {10**400}',
         ),
         MOTOR_MISSION + f"\n[margins]\nrequired_margin = {10**400}\n",
     ],
@@ -1013,3 +1013,24 @@ def test_duplicate_column_names_are_reported_as_such(tmp_path: Path) -> None:
     write(tmp_path, "dup.csv", "# propellant_mass = 0.05 kg\nt [s],t [s]\n0,0\n1,1\n")
     error = refuse(with_curve_file(MOTOR_MISSION, "dup.csv"), base_dir=tmp_path)
     assert "1 columns" not in str(error)
+
+
+def test_motor_stage_refuses_a_residual() -> None:
+    """One definition of a residual: propellant an engine stage never burns. A motor burns
+    to depletion, so a motor stage refuses one, naming the field and what to do instead."""
+    text = edit(
+        MOTOR_MISSION,
+        'inert_mass = "1.15 kg"',
+        'inert_mass = "1.15 kg"\nresidual_fraction = "10 %"',
+    )
+    error = refuse(text)
+    assert error.field == "stage[1].residual_fraction"
+    assert "burns all its propellant" in error.problem
+    assert "engine stages only" in error.expected
+    assert error.line == line_of(text, "residual_fraction")
+
+
+def test_mission_wide_residual_leaves_motor_stages_alone() -> None:
+    mission = outcome(MOTOR_MISSION + '\n[margins]\nresidual_fraction = "10 %"\n')
+    assert isinstance(mission, Mission)
+    assert mission.vehicle.stages[0].residual_fraction == 0.0

@@ -314,7 +314,7 @@ def test_flight_ledger_bars_add_up_within_the_closure(
 
 
 def test_flight_ledger_draws_the_flown_margin(flight: FlightResult) -> None:
-    verdict = dataclasses.replace(flight.verdict, margin_delta_v=42.5)
+    verdict = dataclasses.replace(flight.verdict, propulsion_margin_delta_v=42.5)
     figure = plots.flight_ledger_figure(dataclasses.replace(flight, verdict=verdict), US)
     assert bar(figure, "margin").get_height() == pytest.approx(42.5 / FOOT, rel=EXACT)
 

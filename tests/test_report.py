@@ -314,7 +314,14 @@ def test_report_numbers_equal_the_json_output(competition: Run) -> None:
         for p in ("p1", "p5", "p50", "p95", "p99"):
             assert ("scatter", f"percentiles.{metric}.{p}") in seen
     assert ("scatter", "probability_of_meeting_target") in seen
-    assert ("budget", "margin_m_s") in seen and ("fly", "margin_delta_v_m_s") in seen
+    assert ("budget", "margin_m_s") in seen
+    for key in (
+        "margins.target.value",
+        "margins.propulsion.fraction_of_impulse",
+        "margins.propulsion.ideal_delta_v_m_s",
+        "margins.payload.mass_kg",
+    ):
+        assert ("fly", key) in seen
     assert lookup(competition.docs["scatter"], "samples") == SAMPLES
 
 
@@ -351,7 +358,8 @@ def test_orbital_report_numbers_equal_the_json_output() -> None:
     seen = check_against_json(run)
     assert {("fly", key) for key in KEY_FIGURES} <= seen
     assert ("fly", "orbit.perigee_altitude_m") in seen
-    assert ("fly", "margin_delta_v_m_s") in seen
+    assert ("fly", "margins.propulsion.ideal_delta_v_m_s") in seen
+    assert ("fly", "delta_v_left_after_later_legs_m_s") in seen
     for j, _ in enumerate(docs["budget"]["legs"]):
         assert ("budget", f"legs.{j}.margin_m_s") in seen
 

@@ -96,11 +96,14 @@ def compare_view(
         "`propulsion fly` computes them."
     )
     if "margin" in shown:
-        notes.append(" Target margin: in the target's own unit (m/s for an orbit).")
+        notes.append(
+            " Target margin: in the target's own unit (for an orbit, how far perigee and "
+            "apogee lie inside the tolerance band)."
+        )
     if not result.margin_computed:
         notes.append(
-            "\n--no-margin: the delta-v margins were not computed; the verdicts judge the "
-            "targets alone."
+            "\n--no-margin: the propulsion and payload margins were not computed; the verdicts "
+            "judge the targets alone."
         )
     if hidden:
         notes.append(
@@ -133,7 +136,7 @@ def compare_command(
         None,
         "--sort",
         "-s",
-        help="Sort by this column (apogee, liftoff_mass, drag_loss, margin_delta_v, ...); "
+        help="Sort by this column (apogee, liftoff_mass, drag_loss, propulsion_margin, ...); "
         "best first by default.",
         show_default=False,
     ),

@@ -34,6 +34,7 @@ from propulsion.units import DisplayUnits, format_number, to_display
 if TYPE_CHECKING:
     from propulsion.ascent import FlightResult
     from propulsion.ledger import BudgetResult
+    from propulsion.margins import FlightVerdict
     from propulsion.mission import Mission
     from propulsion.plausibility import Finding
     from propulsion.studies.scatter import ScatterResult
@@ -275,6 +276,14 @@ def _row(label: str, cells: Sequence[str], unit: str | None = None, css: str = "
     return f'<tr{klass}><th scope="row">{_e(label)}</th>{unit_cell}{"".join(cells)}</tr>'
 
 
+def _asked_text(verdict: FlightVerdict, units: DisplayUnits) -> str:
+    """The amount the verdict asks for, in the judged margin's terms."""
+    if verdict.judge == "propulsion" and verdict.asked_is_fraction:
+        return f"{verdict.asked:.1%} of impulse"
+    dimension = {"target": verdict.dimension, "payload": "mass"}.get(verdict.judge, "speed")
+    return f"{_shown(verdict.asked, dimension or None, units)} {units.label(dimension)}".strip()
+
+
 def _verdict_box(meets: bool | None, heading: str, text: str) -> str:
     if meets is None:
         css, mark = "none", "NO TARGET"
@@ -350,16 +359,12 @@ def _verdicts(page: _Page, plan: BudgetResult, flown: FlightResult) -> None:
     page.add(_verdict_box(plan.verdict.meets_targets, "Ideal budget", plan.verdict.describe(units)))
 
     dimension = verdict.dimension or None
-    margin_dimension = "speed" if verdict.target == "circular_orbit" else dimension
-    achieved, required, margin = {
-        "apogee": ("Achieved apogee", "Required apogee", "Margin"),
-        "burnout_speed": ("Achieved burnout speed", "Required burnout speed", "Margin"),
-        "circular_orbit": (
-            "Altitude at engine cutoff",
-            "Altitude of the target orbit",
-            "Margin: Δv left after the later legs",
-        ),
-    }.get(verdict.target, ("Achieved", "Required", "Margin"))
+    achieved, required = {
+        "apogee": ("Achieved apogee", "Required apogee"),
+        "burnout_speed": ("Achieved burnout speed", "Required burnout speed"),
+        "circular_orbit": ("Altitude at engine cutoff", "Altitude of the target orbit"),
+    }.get(verdict.target, ("Achieved", "Required"))
+    judged = {verdict.judge: "strong"}
     rows = [
         _row("Target", [f"<td>{_e(verdict.target or '—')}</td>"], ""),
         _row(
@@ -372,29 +377,82 @@ def _verdicts(page: _Page, plan: BudgetResult, flown: FlightResult) -> None:
             [page.cell(verdict.required, "fly", "required", dimension)],
             page.label(dimension),
         ),
+    ]
+    if verdict.target == "circular_orbit":
+        rows += [
+            _row(
+                "Tolerance band, either side",
+                [page.cell(verdict.tolerance, "fly", "orbit_tolerance_m", "length")],
+                page.label("length"),
+            ),
+            _row(
+                "Δv left after the later legs",
+                [
+                    page.cell(
+                        verdict.delta_v_left, "fly", "delta_v_left_after_later_legs_m_s", "speed"
+                    )
+                ],
+                page.label("speed"),
+            ),
+        ]
+    target_label = (
+        "Target margin (inside the orbit band)"
+        if verdict.target == "circular_orbit"
+        else "Target margin"
+    )
+    rows += [
         _row(
-            margin,
-            [page.cell(verdict.margin, "fly", "margin", margin_dimension)],
-            page.label(margin_dimension),
-            "strong",
+            target_label,
+            [page.cell(verdict.target_margin, "fly", "margins.target.value", dimension)],
+            page.label(dimension),
+            judged.get("target", ""),
         ),
         _row(
-            "Margin, share of the requirement",
-            [page.percent(verdict.margin_fraction, "fly", "margin_fraction")],
+            "Target margin, share of the target",
+            [
+                page.percent(
+                    verdict.target_margin_fraction, "fly", "margins.target.fraction_of_target"
+                )
+            ],
             "%",
         ),
         _row(
-            "Margin as ideal Δv",
-            [page.cell(verdict.margin_delta_v, "fly", "margin_delta_v_m_s", "speed")],
-            units.label("speed"),
-            "strong",
+            "Propulsion margin: impulse that may be lost",
+            [
+                page.percent(
+                    verdict.propulsion_margin, "fly", "margins.propulsion.fraction_of_impulse"
+                )
+            ],
+            "%",
+            judged.get("propulsion", ""),
         ),
         _row(
-            "Margin as payload mass",
-            [page.cell(verdict.margin_mass, "fly", "margin_payload_kg", "mass")],
-            units.label("mass"),
+            "Propulsion margin as ideal Δv",
+            [
+                page.cell(
+                    verdict.propulsion_margin_delta_v,
+                    "fly",
+                    "margins.propulsion.ideal_delta_v_m_s",
+                    "speed",
+                )
+            ],
+            units.label("speed"),
         ),
-        _row("How the Δv margin was found", [f"<td>{_e(verdict.method)}</td>"], ""),
+        _row(
+            "Payload margin: mass that could be added",
+            [page.cell(verdict.payload_margin, "fly", "margins.payload.mass_kg", "mass")],
+            units.label("mass"),
+            judged.get("payload", ""),
+        ),
+        _row(
+            "The verdict judges",
+            [
+                f"<td>{_e(verdict.judge)} margin, asking for at least "
+                f"{_e(_asked_text(verdict, units))}</td>"
+            ],
+            "",
+        ),
+        _row("How the margins were found", [f"<td>{_e(verdict.method)}</td>"], ""),
     ]
     page.add(_table("Flight (first leg's target, simulated)", ["", "Unit", "Value"], rows, 2))
     bv = plan.verdict
@@ -639,8 +697,12 @@ def _flight(page: _Page, flown: FlightResult) -> None:
     units = page.units
     speed, length = units.label("speed"), units.label("length")
     page.add('<section id="flight">\n<h2>Flight: delta-v ledger and events</h2>')
-    segments = list(flown.ledger)[:-1]
-    total = flown.total
+    from propulsion.report.tables import closure_text
+
+    cleaned = flown.clean_ledger()  # round-off shown as 0 (as in the JSON)
+    segments = cleaned[:-1]
+    total = cleaned[-1]
+    resolution = flown.resolution
 
     def line(label: str, attribute: str, key: str, css: str = "") -> str:
         cells = [
@@ -650,14 +712,31 @@ def _flight(page: _Page, flown: FlightResult) -> None:
         cells.append(page.cell(getattr(total, attribute), "fly", f"ledger.{key}", "speed"))
         return _row(label, cells, speed, css)
 
-    rows = [
-        line("Ideal Δv (∫ F_vac / m dt)", "ideal", "ideal_m_s"),
+    raw = list(flown.ledger)
+    closure = [
+        _keyed(
+            "td",
+            row.closure,
+            "fly",
+            f"ledger.segments.{i}.closure_m_s" if i < len(raw) - 1 else "ledger.closure_m_s",
+            closure_text(row.closure, resolution, units),
+        )
+        for i, row in enumerate(raw)
+    ]
+    rows = [line("Ideal Δv (∫ F_vac / m dt)", "ideal", "ideal_m_s")]
+    if total.rotation_credit != 0.0:
+        rows.append(line("+ Earth-rotation credit", "rotation_credit", "rotation_credit_m_s"))
+    rows += [
         line("− gravity loss", "gravity_loss", "gravity_loss_m_s"),
         line("− drag loss", "drag_loss", "drag_loss_m_s"),
         line("− steering loss", "steering_loss", "steering_loss_m_s"),
         line("− back-pressure loss", "pressure_loss", "pressure_loss_m_s"),
-        line("= achieved (Δ inertial speed)", "achieved", "achieved_m_s", "strong"),
-        line("Closure (ideal − losses − achieved)", "closure", "closure_m_s"),
+    ]
+    if total.pad_loss != 0.0:
+        rows.append(line("− held by the pad", "pad_loss", "pad_loss_m_s"))
+    rows += [
+        line("= achieved (Δ speed)", "achieved", "achieved_m_s", "strong"),
+        _row("Closure (ideal + credit − losses − achieved)", closure, speed),
     ]
     header = ["", "Unit", *(row.segment for row in segments), "Whole flight"]
     page.add(
@@ -668,12 +747,15 @@ def _flight(page: _Page, flown: FlightResult) -> None:
             2,
         )
     )
-    scale = max(abs(total.ideal), 1.0)
     page.add(
-        f'<p class="note">The ledger closes to {_e(_shown(total.closure, "speed", units, 3))} '
-        f"{_e(speed)} ({_e(format_number(abs(total.closure) / scale, 2))} of the ideal Δv); "
-        "the closure is the integration error. Integrated with a batched Dormand–Prince 5(4) "
-        f"method in {int(flown.outcome.steps[0])} steps.</p>"
+        '<p class="note">The closure is the integration error: '
+        f"{_e(closure_text(flown.total.closure, resolution, units))} {_e(speed)} over the "
+        f"whole flight (terms within {_e(format_number(resolution, 1))} m/s of zero, the "
+        "integrator's resolution, are shown as 0). Integrated with a compiled "
+        f"Dormand–Prince 5(4) method in {int(flown.outcome.steps[0])} steps. Gravity and "
+        "steering losses are taken against the Earth-relative velocity in the atmosphere "
+        "(H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed., 2013, §11.2); "
+        "the Earth-rotation credit is the inertial speed the turning Earth gives.</p>"
     )
     header = [
         "Stage",

@@ -696,12 +696,12 @@ def flight_ledger_figure(result: FlightResult, units: DisplayUnits) -> Figure:
 
     mission = result.mission
     s = _factor("speed", units)
-    total = result.total
+    total = result.clean_ledger()[-1]  # round-off shown as 0
     ideal = total.ideal * s
     bars = [_Bar("ideal", "ideal Δv", 0.0, ideal, "total")]
     level = ideal
     credit = total.rotation_credit * s
-    if abs(credit) > 1e-6 * max(abs(ideal), 1.0):
+    if credit != 0.0:
         bars.append(_Bar("rotation_credit", "Earth-rotation\ncredit", level, credit, "total"))
         level += credit
     losses = [
@@ -710,8 +710,8 @@ def flight_ledger_figure(result: FlightResult, units: DisplayUnits) -> Figure:
         ("steering_loss", "steering\nloss"),
         ("pressure_loss", "back-pressure\nloss"),
     ]
-    if abs(total.pad_loss) > 1e-9:
-        losses.append(("pad_loss", "burnt on\nthe pad"))
+    if total.pad_loss != 0.0:
+        losses.append(("pad_loss", "held by\nthe pad"))
     for gid, label in losses:
         loss = float(getattr(total, gid)) * s
         bars.append(_Bar(gid, label, level - loss, loss, "loss"))
@@ -721,7 +721,10 @@ def flight_ledger_figure(result: FlightResult, units: DisplayUnits) -> Figure:
     figure = _new_figure(FIGURE_SIZE, mission, title)
     ax = figure.add_subplot(1, 1, 1)
     _style(ax)
-    notes = [f"closure {format_number(total.closure * s, 3)} {units.label('speed')}"]
+    from propulsion.report.tables import closure_text
+
+    closure = closure_text(result.total.closure, result.resolution, units)
+    notes = [f"closure {closure} {units.label('speed')}"]
     if mission.legs:
         leg = mission.legs[0]
         required = budget(mission).legs[0].required_delta_v * s
@@ -734,16 +737,15 @@ def flight_ledger_figure(result: FlightResult, units: DisplayUnits) -> Figure:
             notes.append(
                 f"hatched dots: the budget's loss allowance {_shown(allowance / s, 'speed', units)}"
             )
-        margin = result.verdict.margin_delta_v
+        margin = result.verdict.propulsion_margin_delta_v
         if math.isfinite(margin):
-            bars.append(_Bar("margin", "margin\n(flown)", 0.0, margin * s, "margin"))
+            bars.append(_Bar("margin", "propulsion\nmargin", 0.0, margin * s, "margin"))
             notes.append(
-                "margin: delta-v left after the later legs' needs"
-                if leg.target == "circular_orbit"
-                else "margin: ideal Δv that could be taken away and still meet the target"
+                "propulsion margin: the ideal Δv of the impulse that may be lost and still "
+                "meet the target"
             )
         else:
-            notes.append(f"margin: {result.verdict.method}")
+            notes.append(f"propulsion margin: {result.verdict.method}")
     _draw_bars(ax, bars, units.label("speed"))
     ax.set_title("; ".join(notes) + ".", fontsize=7.5, color=GREY, loc="left", wrap=True)
     return figure
@@ -897,7 +899,7 @@ def _output_dimension(result: SweepResult, output: str) -> tuple[str, str | None
 def _sweep_target(result: SweepResult, output: str) -> tuple[float | None, str]:
     """The target level of an output [SI] and its description, or None."""
     legs = result.mission.legs
-    if output in ("margin", "margin_delta_v_m_s"):
+    if output in ("margin", "propulsion_margin_m_s"):
         return 0.0, "zero margin"
     if output == "apogee_m" and legs and legs[0].target == "apogee":
         return legs[0].fields["altitude"], "target apogee"

@@ -155,7 +155,11 @@ def _build(
         winners: set[int] = set()
         if best and numbers:
             same_unit = len({d for d, v in zip(row_dims, values, strict=True) if not _missing(v)})
-            winners = best_rows(values, better) if same_unit <= 1 else set()
+            # a column whose meaning varies per row (a margin of an apogee against one of
+            # an orbit) names it in "<name>_target": rows of different meaning never rank
+            kind_column = f"{name}_target"
+            same_kind = kind_column not in frame.columns or len(set(frame[kind_column])) <= 1
+            winners = best_rows(values, better) if same_unit <= 1 and same_kind else set()
         if winners:
             marked.add(name)
         column: list[Text] = []

@@ -22,9 +22,10 @@ if TYPE_CHECKING:
     from propulsion.ascent import FlightResult
     from propulsion.catalog import PropellantFamily
     from propulsion.ledger import BudgetResult
+    from propulsion.margins import FlightVerdict
     from propulsion.mission import Mission
     from propulsion.plausibility import Finding
-    from propulsion.sizing import SizingResult
+    from propulsion.sizing import SizingResult, SizingSolution
     from propulsion.stage_split import SplitResult
     from propulsion.studies.scatter import ScatterResult
     from propulsion.vehicle import DragCurve, Motor
@@ -33,6 +34,7 @@ __all__ = [
     "budget_view",
     "caution_panel",
     "check_view",
+    "closure_text",
     "data_view",
     "findings_view",
     "flight_view",
@@ -95,10 +97,10 @@ def mission_summary(mission: Mission) -> Text:
     return text
 
 
-def verdict_text(meets: bool | None, text: str) -> Text:
-    """The verdict line, coloured by outcome."""
+def verdict_text(meets: bool | None, text: str, fail_mark: str = "SHORT") -> Text:
+    """The verdict line, coloured by outcome; ``fail_mark`` names a failure."""
     style = "bold green" if meets else ("bold red" if meets is False else "bold yellow")
-    mark = "PASS" if meets else ("SHORT" if meets is False else "NO TARGET")
+    mark = "PASS" if meets else (fail_mark if meets is False else "NO TARGET")
     line = Text()
     line.append(f"{mark}  ", style=style)
     line.append(text, style=style)
@@ -445,15 +447,16 @@ def flight_view(
         if spark is not None:
             parts.append(spark)
             parts.append(Text())
-    rows = list(result.ledger)
+    rows = result.clean_ledger()
     names = [f"{row.segment}" for row in rows[:-1]] + ["total"]
+    resolution = result.resolution
 
     def line(label: str, attribute: str) -> tuple[str, str, list[str]]:
         return label, speed, [_q(getattr(row, attribute), "speed", units) for row in rows]
 
-    total = result.total
+    total = rows[-1]
     sheet: list[tuple[str, str, Sequence[str]]] = [line("Ideal Δv (∫ F_vac / m dt)", "ideal")]
-    if abs(total.rotation_credit) > 1e-6 * max(abs(total.ideal), 1.0):
+    if total.rotation_credit != 0.0:
         sheet.append(line("+ Earth-rotation credit", "rotation_credit"))
     sheet += [
         line("− gravity loss", "gravity_loss"),
@@ -461,11 +464,15 @@ def flight_view(
         line("− steering loss", "steering_loss"),
         line("− back-pressure loss", "pressure_loss"),
     ]
-    if abs(total.pad_loss) > 1e-9:
-        sheet.append(line("− burnt on the pad", "pad_loss"))
+    if total.pad_loss != 0.0:
+        sheet.append(line("− held by the pad", "pad_loss"))
     sheet += [
         line("= achieved (Δ speed)", "achieved"),
-        line("closure (ideal + credit − losses − achieved)", "closure"),
+        (
+            "closure (ideal + credit − losses − achieved)",
+            speed,
+            [closure_text(row.closure, resolution, units) for row in result.ledger],
+        ),
     ]
     parts.append(
         _sheet(
@@ -507,10 +514,102 @@ def flight_view(
         shown = to_display(value, dimension, units)
         return f"{_num(shown, 4)} {units.label(dimension)}".strip()
 
-    parts.append(verdict_text(result.verdict.meets_targets, result.verdict.describe(fmt)))
+    if result.verdict.meets_targets is not None:
+        parts.append(margins_view(result, units))
+    parts.append(
+        verdict_text(
+            result.verdict.meets_targets,
+            result.verdict.describe(fmt),
+            FAIL_MARKS.get(result.verdict.miss, "SHORT"),
+        )
+    )
     parts.append(findings_view(result.findings))
     parts.append(caution_panel())
     return Group(*parts)
+
+
+FAIL_MARKS = {
+    "energy": "SHORT",
+    "shape": "OFF TARGET",
+    "margin": "LOW MARGIN",
+    "no result": "FAILED",
+}
+"""The verdict's mark for each reason a flight fails (:mod:`propulsion.margins`)."""
+
+
+def closure_text(value: float, resolution: float, units: DisplayUnits) -> str:
+    """A figure that is integration error: within ``resolution`` shown as a bound, "<1e-4"
+    (the power of ten above the resolution, in display units), else to one significant
+    figure."""
+    if not math.isfinite(value):
+        return "—"
+    shown = abs(to_display(value, "speed", units))
+    limit = abs(to_display(resolution, "speed", units))
+    if shown <= limit:
+        return f"< {10.0 ** math.ceil(math.log10(limit)):.0e}"
+    return f"{to_display(value, 'speed', units):.0e}"
+
+
+def margins_view(result: FlightResult, units: DisplayUnits) -> RenderableType:
+    """The flight's three margins side by side, the judged one marked."""
+    verdict = result.verdict
+    table = _table("Margins: how much worse the flight may be and still meet its target")
+    table.add_column("Margin", no_wrap=True)
+    table.add_column("Amount", justify="right")
+    table.add_column("Share", justify="right")
+    table.add_column(_head("As ideal Δv", "speed", units), justify="right")
+    table.add_column("Judged", justify="left", no_wrap=True)
+
+    def signed(value: float, dimension: str) -> str:
+        text = _q(value, dimension, units)
+        return f"+{text}" if math.isfinite(value) and value > 0 else text
+
+    def share(value: float, digits: int = 1) -> str:
+        return f"{value:+.{digits}%}" if math.isfinite(value) else ""
+
+    def judged(name: str) -> str:
+        return "◀ asks ≥ " + _asked(verdict, units) if verdict.judge == name else ""
+
+    what = {
+        "apogee": "target: apogee",
+        "burnout_speed": "target: burnout speed",
+        "circular_orbit": "target: inside the band",
+    }.get(verdict.target, "target")
+    unit = units.label(verdict.dimension)
+    table.add_row(
+        what,
+        f"{signed(verdict.target_margin, verdict.dimension)} {unit}",
+        share(verdict.target_margin_fraction),
+        "",
+        judged("target"),
+    )
+    if math.isfinite(verdict.propulsion_margin) or math.isfinite(verdict.payload_margin):
+        more = "" if verdict.propulsion_bounded else "> "
+        table.add_row(
+            "propulsion: impulse lost",
+            f"{more}{verdict.propulsion_margin:.1%}",
+            "",
+            f"{more}{signed(verdict.propulsion_margin_delta_v, 'speed')}",
+            judged("propulsion"),
+        )
+        more = "" if verdict.payload_bounded else "> "
+        table.add_row(
+            "payload: mass added",
+            f"{more}{signed(verdict.payload_margin, 'mass')} {units.label('mass')}",
+            share(verdict.payload_margin_fraction, 0),
+            f"{more}{signed(verdict.payload_margin_delta_v, 'speed')}",
+            judged("payload"),
+        )
+    else:
+        table.add_row("propulsion, payload", "not computed (--no-margin)", "", "", "")
+    return table
+
+
+def _asked(verdict: FlightVerdict, units: DisplayUnits) -> str:
+    def fmt(value: float, dimension: str) -> str:
+        return f"{_q(value, dimension, units, 3)} {units.label(dimension)}".strip()
+
+    return verdict.asked_text(fmt)
 
 
 def sizing_view(result: SizingResult, units: DisplayUnits) -> RenderableType:
@@ -535,37 +634,90 @@ def sizing_view(result: SizingResult, units: DisplayUnits) -> RenderableType:
         flight_quantity = "m/s of delta-v margin"
     else:
         flight_quantity = f"{target_unit_si} of {result.target_kind}"
+    budget_scale = (
+        max(abs(result.budget_result.verdict.total_required), 1.0)
+        if (result.budget_result is not None)
+        else 1.0
+    )
+    flight_scale = max(abs(result.target_value), 1.0)
+
+    def settled(number: float, scale: float) -> str:
+        # at a root the margin is zero to the root finder's tolerance: show 0, not round-off
+        if math.isfinite(number) and abs(number) <= 1e-6 * scale:
+            number = 0.0
+        return _num(number, 3)
+
+    def either(number: float, text: str) -> str:
+        return text if math.isfinite(number) else "—"
+
+    def outcome(solution: SizingSolution) -> str:
+        if solution.found:
+            return "found"
+        return "out of reach" if math.isfinite(solution.peak_value) else "not found"
+
     rows: list[tuple[str, str, Sequence[str]]] = [
-        (f"Solved {ref.name}", unit, [value(s.value) for s in solutions]),
+        ("Solved value", unit, [value(s.value) for s in solutions]),
         ("Current value", unit, [value(result.initial_value)] * 2),
         (
             "Margin at the solution",
             "",
             [
-                f"{_num(result.budget.margin, 3)} m/s beyond the required margin",
-                f"{_num(result.flight.margin, 3)} (target terms)",
+                either(
+                    result.budget.margin,
+                    f"{settled(result.budget.margin, budget_scale)} m/s beyond the asked",
+                ),
+                either(
+                    result.flight.margin,
+                    f"{settled(result.flight.margin, flight_scale)} {target_unit_si} "
+                    "beyond the asked",
+                ),
             ],
         ),
         (
             "Sensitivity",
             "",
             [
-                f"{_num(result.budget.sensitivity, 3)} m/s of Δv margin {per}",
-                f"{_num(result.flight.sensitivity, 3)} {flight_quantity} {per}",
+                either(
+                    result.budget.sensitivity,
+                    f"{_num(result.budget.sensitivity, 3)} m/s of Δv margin {per}",
+                ),
+                either(
+                    result.flight.sensitivity,
+                    f"{_num(result.flight.sensitivity, 3)} {flight_quantity} {per}",
+                ),
             ],
         ),
         ("Evaluations", "", [str(s.evaluations) for s in solutions]),
-        ("How", "", [s.message for s in solutions]),
+        ("Result", "", [outcome(s) for s in solutions]),
     ]
+    if any(math.isfinite(s.peak_value) for s in solutions):
+        rows += [
+            ("Peak inside the range", unit, [value(s.peak_value) for s in solutions]),
+            (
+                "Best reachable there",
+                "",
+                [
+                    f"{_num(result.budget.peak_achieved, 4)} m/s of ideal Δv"
+                    if math.isfinite(result.budget.peak_achieved)
+                    else "—",
+                    f"{_num(result.flight.peak_achieved, 4)} {flight_quantity}"
+                    if math.isfinite(result.flight.peak_achieved)
+                    else "—",
+                ],
+            ),
+        ]
     parts.append(
         _sheet(
             f"Sizing {ref.name} for the {result.target_kind} target "
             f"({_q(result.target_value, result.target_dimension, units)} {target_unit})",
             ["ideal budget (loss allowance)", "flight simulation"],
             rows,
-            emphasise=[f"Solved {ref.name}"],
+            emphasise=["Solved value"],
         )
     )
+    how = Text(style="dim")
+    how.append(f"Budget: {result.budget.message}.\nFlight: {result.flight.message}.\n")
+    parts.append(how)
     parts.append(Text(f"Assumption: {result.inert_rule}.", style="dim"))
     if result.budget_result is not None:
         budget = result.budget_result.verdict

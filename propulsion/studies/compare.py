@@ -72,7 +72,9 @@ COLUMNS: dict[str, Column] = {
     "orbit_apogee_m": Column("Orbit apogee", "length", None),
     "margin": Column("Target margin", None, "max"),
     "margin_unit": Column("Margin unit", None, None),
-    "margin_delta_v_m_s": Column("Δv margin", "speed", "max"),
+    "margin_target": Column("Margin's target", None, None),
+    "propulsion_margin_m_s": Column("Propulsion margin", "speed", "max"),
+    "payload_margin_kg": Column("Payload margin", "mass", "max"),
     "liftoff_thrust_to_weight": Column("Liftoff T/W", None, "max"),
     "rail_exit_speed_m_s": Column("Rail exit", "speed", "max"),
     "max_mach": Column("Max Mach", None, None),
@@ -81,8 +83,12 @@ COLUMNS: dict[str, Column] = {
     "budget_meets_targets": Column("Budget meets", None, None),
 }
 """Every column of :meth:`CompareResult.to_frame`, in order, with its display title,
-dimension and better direction. ``margin`` is in the target's own terms; its unit (``m``
-or ``m/s``) is in ``margin_unit`` on the same row.
+dimension and better direction. ``margin`` is the target margin, in the target's own
+terms (for an orbit, how far perigee and apogee lie inside the tolerance band); its unit
+(``m`` or ``m/s``) is in ``margin_unit`` and its target kind in ``margin_target`` on the
+same row: margins of different kinds of target are not ranked against each other.
+``propulsion_margin_m_s`` is the propulsion margin as ideal delta-v, ``payload_margin_kg``
+the payload margin (:mod:`propulsion.margins`).
 
 Which way is better: less liftoff mass, fewer losses and a lower maximum dynamic pressure
 (lighter structure); more ideal delta-v, apogee, perigee, margin, liftoff thrust-to-weight
@@ -93,7 +99,7 @@ DEFAULT_COLUMNS: tuple[str, ...] = (
     "meets_targets",
     "apogee_m",
     "perigee_m",
-    "margin_delta_v_m_s",
+    "propulsion_margin_m_s",
     "liftoff_mass_kg",
     "ideal_delta_v_m_s",
     "gravity_loss_m_s",
@@ -131,7 +137,9 @@ class CompareRow:
     orbit_apogee_m: float
     margin: float
     margin_unit: str
-    margin_delta_v_m_s: float
+    margin_target: str
+    propulsion_margin_m_s: float
+    payload_margin_kg: float
     liftoff_thrust_to_weight: float
     rail_exit_speed_m_s: float
     max_mach: float
@@ -221,7 +229,7 @@ def resolve_columns(text: str | None, frame_columns: Sequence[str] | None = None
     if text is None:
         chosen = [name for name in DEFAULT_COLUMNS if name in names]
     elif text.strip().lower() == "all":
-        chosen = [name for name in names if name not in ("source", "margin_unit")]
+        chosen = [name for name in names if name not in ("source", "margin_unit", "margin_target")]
     else:
         chosen = [resolve_column(part, names) for part in text.split(",") if part.strip()]
     if "name" in names and "name" not in chosen:
@@ -325,8 +333,6 @@ def _names(missions: Sequence[Mission]) -> list[str]:
 
 
 def _margin_unit(target: str, dimension: str) -> str:
-    if target == "circular_orbit":
-        return "m/s"
     return {"length": "m", "speed": "m/s"}.get(dimension, "")
 
 
@@ -340,9 +346,9 @@ def compare(
     missions : sequence of Mission
         The options, each a checked mission (see :func:`propulsion.load_mission`).
     margin : bool
-        Find each flight's delta-v margin by root finding on added payload (about 30
-        more flights per option). False judges each target alone, and the
-        ``margin_delta_v_m_s`` column is NaN.
+        Find each flight's propulsion and payload margins by root finding on the flight
+        (about 120 more flights per option, batched). False judges each target alone, and
+        the ``propulsion_margin_m_s`` and ``payload_margin_kg`` columns are NaN.
     progress : callable or None
         Called as ``progress(done, total, current)`` before each option is flown and once
         at the end (``current == ""``).
@@ -354,8 +360,9 @@ def compare(
         budget's total ideal delta-v [m/s] and stage-1 thrust-to-weight [-]; the flight's
         whole-ledger losses and achieved delta-v [m/s]; apogee above the site [m] (NaN
         without an apogee, as in orbit); osculating perigee and apogee altitude above the
-        equatorial radius [m] (NaN without an orbit); the target margin [``margin_unit``]
-        and the delta-v margin [m/s]; rail exit speed [m/s]; max Mach [-]; max dynamic
+        equatorial radius [m] (NaN without an orbit); the target margin [``margin_unit``],
+        the propulsion margin as ideal delta-v [m/s] and the payload margin [kg]; rail
+        exit speed [m/s]; max Mach [-]; max dynamic
         pressure [Pa]; and both verdicts.
 
     Raises
@@ -389,7 +396,7 @@ def compare(
             progress(done, total, name)
         plan = budget(mission)
         flown = fly(mission, margin=margin)
-        ledger = flown.total
+        ledger = flown.clean_ledger()[-1]  # round-off shown as 0, never a winner
         verdict = flown.verdict
         orbit = flown.orbit
         rows.append(
@@ -406,9 +413,11 @@ def compare(
                 apogee_m=float(flown.apogee),
                 perigee_m=float(orbit.perigee_altitude) if orbit is not None else math.nan,
                 orbit_apogee_m=float(orbit.apogee_altitude) if orbit is not None else math.nan,
-                margin=float(verdict.margin),
+                margin=float(verdict.target_margin),
                 margin_unit=_margin_unit(verdict.target, verdict.dimension),
-                margin_delta_v_m_s=float(verdict.margin_delta_v),
+                margin_target=verdict.target,
+                propulsion_margin_m_s=float(verdict.propulsion_margin_delta_v),
+                payload_margin_kg=float(verdict.payload_margin),
                 liftoff_thrust_to_weight=float(plan.stages[0].thrust_to_weight),
                 rail_exit_speed_m_s=float(flown.rail_exit_speed),
                 max_mach=float(flown.max_mach),

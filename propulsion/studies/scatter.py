@@ -19,7 +19,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 import numpy.typing as npt
 
-from propulsion import ascent, flight
+from propulsion import ascent, flight, margins
 from propulsion.mission import Mission, parse_mission
 from propulsion.studies.dispersion import Sampler, draw
 
@@ -125,7 +125,7 @@ def _measure(
     mission: Mission, core: flight.FlightCore, outcome: flight.Outcome
 ) -> tuple[FloatArray, npt.NDArray[np.bool_]]:
     """The study's outputs per sample (rows of METRICS) and whether it meets the target."""
-    target = ascent.Target(mission, core)
+    target = margins.Target(mission, core)
     if target.judged:
         margin = target.metric(core, outcome)
         meets = margin >= 0
@@ -337,7 +337,7 @@ def summarise(
             rho = spearman(x, y[finite])
             drivers.append((dispersion.field, METRICS[output], rho))
     drivers.sort(key=lambda item: -abs(item[2]))
-    target = ascent.Target(mission, flight.build_core(mission, ascent.flown_stages(mission)))
+    target = margins.Target(mission, flight.build_core(mission, ascent.flown_stages(mission)))
     probability = aggregate.meets / aggregate.valid if aggregate.valid else math.nan
     return ScatterResult(
         mission=mission,
