@@ -49,6 +49,13 @@ def scatter_command(
         help="Draw histograms of apogee and margin (and where the apogees lie) to this "
         ".png or .svg file.",
     ),
+    reserve: str | None = typer.Option(
+        None,
+        "--reserve",
+        help="Find each flight's propulsion margin (about 15 more flights per sample) and "
+        "report the margin this share of the flights still has, e.g. '99.7 %' (the "
+        "three-sigma flight-performance reserve).",
+    ),
     force: bool = typer.Option(False, "--force", help="Overwrite output files that exist."),
     units: UnitSystem = UNITS_OPTION,
     json_output: bool = JSON_OPTION,
@@ -68,6 +75,7 @@ def scatter_command(
 
     with guard():
         mission = load_mission(mission_file)
+        probability = _probability(reserve) if reserve is not None else None
         if plot is not None:
             from propulsion.report.plots import check_plot_path
 
@@ -79,7 +87,8 @@ def scatter_command(
                 f"{d.field} [{_si(d.dimension)}]" if _si(d.dimension) else d.field
                 for d in mission.dispersions
             ]
-            header += [_metric_header(metric) for metric in METRICS] + ["meets_target"]
+            header += [_metric_header(metric) for metric in METRICS]
+            header += ["meets_target", "miss"]
             writer = StreamedCsv(samples_file, header, force)
 
         def stream(chunk: ChunkResult) -> None:
@@ -106,6 +115,7 @@ def scatter_command(
                     cluster=cluster,
                     on_chunk=stream,
                     progress=lambda done, total: progress.update(task, completed=done),
+                    reserve=probability,
                 )
         except BaseException:
             if writer is not None:
@@ -123,6 +133,25 @@ def scatter_command(
     from propulsion.report.tables import scatter_view
 
     stdout().print(scatter_view(result, units.display()))
+
+
+def _probability(text: str) -> float:
+    """--reserve as a probability strictly between 0 and 1 ("99.7 %" or "0.997")."""
+    from propulsion.errors import RequestError
+    from propulsion.units import UnitParseError, parse_quantity
+
+    try:
+        value = parse_quantity(text, "dimensionless")
+    except UnitParseError as exc:
+        raise RequestError(
+            f"--reserve {text!r}: {exc.reason}; expected a share such as '99.7 %'"
+        ) from None
+    if not 0.0 < value < 1.0:
+        raise RequestError(
+            f"--reserve {text!r} is not a share of the flights; expected one between 0 % and "
+            "100 %, such as '99.7 %'"
+        )
+    return value
 
 
 def _si(dimension: str) -> str:
@@ -146,5 +175,6 @@ def _rows(chunk: ChunkResult) -> str:
         cells += [f"{value:.10g}" for value in chunk.inputs[:, j]]
         cells += ["" if not np.isfinite(v) else f"{v:.10g}" for v in chunk.outputs[:, j]]
         cells.append("1" if chunk.meets[j] else "0")
+        cells.append(str(chunk.misses[j]) if chunk.misses.size else "")
         buffer.write(",".join(cells) + "\n")
     return buffer.getvalue()

@@ -837,17 +837,23 @@ def scatter_figure(result: ScatterResult, units: DisplayUnits) -> Figure:
     ax.set_title("Apogee", fontsize=9, color=INK, loc="left")
     ax = figure.add_subplot(1, count, 2)
     _style(ax)
-    dimension = "length" if result.target == "apogee" else "speed"
+    dimension = "speed" if result.target == "burnout_speed" else "length"
     margin = result.values.get("margin", np.zeros(0)) * _factor(dimension, units)
+    margin = margin[np.isfinite(margin)]  # a miss without a margin (no orbit) is no number
     _histogram(
         ax,
         margin if result.target else np.zeros(0),
         "margin_hist",
-        _label("Margin", dimension, units),
+        _label("Target margin", dimension, units),
         0.0 if result.target else None,
         "zero margin",
     )
-    ax.set_title("Margin (target terms)", fontsize=9, color=INK, loc="left")
+    title = (
+        "Target margin (in the orbit band)"
+        if result.target == "circular_orbit"
+        else ("Target margin")
+    )
+    ax.set_title(title, fontsize=9, color=INK, loc="left")
     if math.isfinite(result.probability):
         low, high = result.interval
         figure.suptitle(

@@ -824,13 +824,18 @@ _METRIC_DIMENSIONS = {
     "max_mach": ("Max Mach", None),
     "max_dynamic_pressure_pa": ("Max dynamic pressure", "pressure"),
     "rail_exit_speed_m_s": ("Rail exit speed", "speed"),
-    "margin": ("Margin (target terms)", None),
+    "margin": ("Target margin", None),
     "downrange_m": ("Downrange at apogee", "length"),
+    "propulsion_margin": ("Propulsion margin", "percent"),
 }
 
 
+PERCENTS = (1.0, 5.0, 50.0, 95.0, 99.0)
+
+
 def scatter_view(result: ScatterResult, units: DisplayUnits) -> RenderableType:
-    """What `scatter` shows: percentiles, probability of success, drivers, caution."""
+    """What `scatter` shows: percentiles with their intervals, the probability of success
+    and the misses by reason, the reserve when asked, drivers, caution."""
     parts: list[RenderableType] = [mission_summary(result.mission)]
     table = _table(
         f"Dispersion of {result.valid:,} flown samples "
@@ -840,20 +845,42 @@ def scatter_view(result: ScatterResult, units: DisplayUnits) -> RenderableType:
     table.add_column("Unit", style="dim")
     for p in (1, 5, 50, 95, 99):
         table.add_column(f"p{p}", justify="right")
-    target_dimension = "length" if result.target in ("apogee", "circular_orbit") else "speed"
-    if result.target == "circular_orbit":
-        target_dimension = "speed"
-    for metric, (title, dimension) in _METRIC_DIMENSIONS.items():
-        if metric == "margin":
-            dimension = target_dimension if result.target else None
-        values = result.percentiles[metric]
+    margin_dimension = {"apogee": "length", "circular_orbit": "length"}.get(result.target, "speed")
+
+    def shown(value: float, dimension: str | None) -> str:
+        if dimension == "percent":
+            if not math.isfinite(value):
+                return "—"
+            return f"{value:.1%}" if round(value * 1000) != 0 else "0.0%"
         if dimension is None:
-            cells = [_num(values[p], 4) for p in (1.0, 5.0, 50.0, 95.0, 99.0)]
-            unit = ""
-        else:
-            cells = [_q(values[p], dimension, units) for p in (1.0, 5.0, 50.0, 95.0, 99.0)]
-            unit = units.label(dimension)
-        table.add_row(title, unit, *cells)
+            return _num(value, 4)
+        return _q(value, dimension, units)
+
+    def unit_of(dimension: str | None) -> str:
+        if dimension == "percent":
+            return "%"
+        return units.label(dimension) if dimension else ""
+
+    for metric, (title, dimension) in _METRIC_DIMENSIONS.items():
+        if metric not in result.percentiles:
+            continue
+        if metric == "margin":
+            if not result.target:
+                continue
+            dimension = margin_dimension
+            title = "Target margin (in the band)" if result.target == "circular_orbit" else title
+        values = result.percentiles[metric]
+        table.add_row(title, unit_of(dimension), *[shown(values[p], dimension) for p in PERCENTS])
+        if metric in ("margin", "propulsion_margin") and metric in result.intervals:
+            # the margins' percentiles carry their 95 % confidence intervals
+            bounds = result.intervals[metric]
+            for side, name in ((0, "  95 % interval, low"), (1, "  95 % interval, high")):
+                table.add_row(
+                    name,
+                    "",
+                    *[shown(bounds[p][side], dimension) for p in PERCENTS],
+                    style="dim",
+                )
     parts.append(table)
     low, high = result.interval
     text = Text()
@@ -862,6 +889,44 @@ def scatter_view(result: ScatterResult, units: DisplayUnits) -> RenderableType:
             f"Probability of meeting the {result.target} target: {result.probability:.1%} "
             f"({result.meets:,} of {result.valid:,}; 95 % Wilson interval {low:.1%} to "
             f"{high:.1%}).",
+            style="bold",
+        )
+    if result.misses:
+        why = {
+            "energy": "for want of energy",
+            "shape": "in shape (steering)",
+            "no result": "without a result",
+        }
+        text.append(
+            "\nMisses: "
+            + "; ".join(
+                f"{count:,} {why.get(reason, reason)}" for reason, count in result.misses.items()
+            )
+            + "."
+        )
+    if result.reserve is not None:
+        reserve = result.reserve
+        r_low, r_high = reserve.interval
+        limits = (
+            f"95 % interval {r_low:.1%} to {r_high:.1%}"
+            if math.isfinite(r_low) and math.isfinite(r_high)
+            else "too few samples for its 95 % interval"
+        )
+        worth = f"{_q(abs(reserve.delta_v), 'speed', units)} {units.label('speed')} of ideal Δv"
+        if reserve.fraction >= 0:
+            line = (
+                f"\nFlight-performance reserve: {reserve.probability:.1%} of the flights "
+                f"could still lose {reserve.fraction:.1%} of total impulse ({worth}) and "
+                "meet the target"
+            )
+        else:
+            line = (
+                f"\nFlight-performance reserve short: for {reserve.probability:.1%} of the "
+                f"flights to meet the target, the vehicle needs {-reserve.fraction:.1%} more "
+                f"total impulse ({worth}): a propulsion margin of {reserve.fraction:.1%}"
+            )
+        text.append(
+            line + f" ({limits}; the Monte Carlo quantile of NASA/TP-2010-216447).",
             style="bold",
         )
     invalid = result.samples - result.valid

@@ -22,6 +22,7 @@ import numpy.typing as npt
 from propulsion import ascent, flight, margins
 from propulsion.mission import Mission, parse_mission
 from propulsion.studies.dispersion import Sampler, draw
+from propulsion.studies.statistics import quantile_interval, spearman, wilson_interval
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -30,6 +31,7 @@ __all__ = [
     "METRICS",
     "PERCENTILES",
     "ChunkResult",
+    "Reserve",
     "ScatterResult",
     "StudySpec",
     "run_chunk",
@@ -47,6 +49,8 @@ CHUNK = 2_000
 """Samples per chunk in this process: the progress bar moves every chunk, and memory
 stays bounded whatever the number of samples."""
 PERCENTILES = (1.0, 5.0, 50.0, 95.0, 99.0)
+CONFIDENCE = 0.95
+"""Two-sided confidence level of the percentile intervals and the success probability."""
 METRICS = (
     "apogee_m",
     "max_mach",
@@ -54,7 +58,11 @@ METRICS = (
     "rail_exit_speed_m_s",
     "margin",
     "downrange_m",
+    "propulsion_margin",
 )
+"""The study's outputs per sample. ``margin`` is the target margin in the target's unit
+(NaN where it is not defined: an orbit never reached); ``propulsion_margin`` the fraction
+of impulse each sample may lose (NaN unless a reserve is asked for)."""
 
 
 @dataclass(frozen=True)
@@ -71,6 +79,8 @@ class StudySpec:
     seed: int
     threads: int | None = None
     rtol: float = STUDY_RTOL
+    reserve: bool = False
+    """Find every sample's propulsion margin too (about 15 more flights per sample)."""
 
 
 @dataclass
@@ -88,6 +98,9 @@ class ChunkResult:
     flagged: npt.NDArray[np.bool_] = field(default_factory=lambda: np.zeros(0, dtype=bool))
     """Samples whose unguided upper stage lit descending, too slow to steer, or tilted
     beyond the limit of the flight warnings."""
+    misses: npt.NDArray[np.str_] = field(default_factory=lambda: np.zeros(0, dtype=str))
+    """Why each flown sample missed its target ("energy", "shape", "no result"; "" when
+    it met it)."""
 
 
 _CACHE: dict[int, Sampler] = {}
@@ -111,27 +124,38 @@ def run_chunk(spec: StudySpec, start: int, stop: int) -> ChunkResult:
     outputs = np.full((len(METRICS), stop - start), np.nan)
     meets = np.zeros(stop - start, dtype=bool)
     flagged = np.zeros(stop - start, dtype=bool)
+    misses = np.full(stop - start, "", dtype=object)
     if core.n:
         outcome = flight.simulate(core, rtol=spec.rtol, threads=spec.threads)
         rows = np.flatnonzero(valid)
-        measured, met = _measure(sampler.mission, core, outcome)
+        measured, met, miss = _measure(sampler.mission, core, outcome, spec)
         outputs[:, rows] = measured
         meets[rows] = met
+        misses[rows] = miss
         flagged[rows] = ascent.bad_ignitions(core, outcome)
-    return ChunkResult(start, stop, values, outputs, meets, valid, keys, reasons, flagged)
+    return ChunkResult(
+        start, stop, values, outputs, meets, valid, keys, reasons, flagged, misses.astype(str)
+    )
 
 
 def _measure(
-    mission: Mission, core: flight.FlightCore, outcome: flight.Outcome
-) -> tuple[FloatArray, npt.NDArray[np.bool_]]:
-    """The study's outputs per sample (rows of METRICS) and whether it meets the target."""
+    mission: Mission, core: flight.FlightCore, outcome: flight.Outcome, spec: StudySpec
+) -> tuple[FloatArray, npt.NDArray[np.bool_], npt.NDArray[np.str_]]:
+    """The study's outputs per sample (rows of METRICS), whether it meets the target, and
+    why not."""
     target = margins.Target(mission, core)
+    propulsion = np.full(core.n, np.nan)
     if target.judged:
-        margin = target.metric(core, outcome)
-        meets = margin >= 0
+        judgement = target.judge(core, outcome)
+        margin, meets, miss = judgement.target_margin, judgement.meets, judgement.miss
+        if spec.reserve:
+            propulsion = margins.propulsion_margins(
+                core, target, target.metric(core, outcome), spec.rtol, spec.threads
+            )
     else:
         margin = np.full(core.n, np.nan)
         meets = np.zeros(core.n, dtype=bool)
+        miss = np.full(core.n, "", dtype=str)
     out = np.vstack(
         [
             outcome.value("apogee", "altitude"),
@@ -140,64 +164,10 @@ def _measure(
             outcome.value("rail_exit", "ground_speed"),
             margin,
             outcome.value("apogee", "downrange"),
+            propulsion,
         ]
     )
-    return out, meets
-
-
-def _ranks(values: FloatArray) -> FloatArray:
-    """Ranks from 1, ties sharing their average rank."""
-    sorter = np.argsort(values, kind="mergesort")
-    inverse = np.empty(values.size, dtype=np.int64)
-    inverse[sorter] = np.arange(values.size)
-    ordered = values[sorter]
-    new = np.r_[True, ordered[1:] != ordered[:-1]]
-    dense = new.cumsum()[inverse]
-    starts = np.r_[np.nonzero(new)[0], values.size]
-    return 0.5 * (starts[dense] + starts[dense - 1] + 1)
-
-
-def spearman(x: FloatArray, y: FloatArray) -> float:
-    """Spearman's rank correlation coefficient: Pearson's correlation of the ranks.
-
-    References
-    ----------
-    .. [1] C. Spearman, "The proof and measurement of association between two things",
-       American Journal of Psychology 15(1), 72-101, 1904.
-    """
-    return float(np.corrcoef(_ranks(x), _ranks(y))[0, 1])
-
-
-def wilson_interval(successes: int, trials: int, confidence: float = 0.95) -> tuple[float, float]:
-    """Wilson score interval for a binomial proportion.
-
-    Parameters
-    ----------
-    successes, trials : int
-        Counts [dimensionless].
-    confidence : float
-        Two-sided confidence level [dimensionless].
-
-    Returns
-    -------
-    (low, high) : tuple of float
-        Bounds of the interval for the probability [dimensionless].
-
-    References
-    ----------
-    .. [1] E. B. Wilson, "Probable inference, the law of succession, and statistical
-       inference", Journal of the American Statistical Association 22(158), 209-212, 1927.
-    """
-    from statistics import NormalDist
-
-    if trials <= 0:
-        return math.nan, math.nan
-    z = NormalDist().inv_cdf(0.5 + confidence / 2)
-    p = successes / trials
-    denominator = 1 + z * z / trials
-    centre = (p + z * z / (2 * trials)) / denominator
-    half = z * math.sqrt(p * (1 - p) / trials + z * z / (4 * trials * trials)) / denominator
-    return max(0.0, centre - half), min(1.0, centre + half)
+    return out, meets, miss
 
 
 class Aggregate:
@@ -209,6 +179,7 @@ class Aggregate:
         self.valid = 0
         self.meets = 0
         self.flagged = 0
+        self.misses: dict[str, int] = {}
         self.invalid_reasons: dict[str, int] = {}
         self.keys = np.zeros(0)
         self.index = np.zeros(0, dtype=np.int64)
@@ -223,6 +194,9 @@ class Aggregate:
         self.meets += int((chunk.meets & chunk.valid).sum())
         if chunk.flagged.size:
             self.flagged += int((chunk.flagged & chunk.valid).sum())
+        for reason in chunk.misses[chunk.valid & ~chunk.meets] if chunk.misses.size else ():
+            if reason:
+                self.misses[str(reason)] = self.misses.get(str(reason), 0) + 1
         for reason in (r for r, ok in zip(chunk.reasons, chunk.valid, strict=True) if not ok):
             label = reason.split(":")[0] if reason else "flight"
             self.invalid_reasons[label] = self.invalid_reasons.get(label, 0) + 1
@@ -246,9 +220,41 @@ class Aggregate:
         self._keep(np.argsort(self.index, kind="stable"))
 
 
+@dataclass(frozen=True)
+class Reserve:
+    """The flight-performance reserve: the propulsion margin that a chosen share of the
+    dispersed flights still has.
+
+    ``probability`` is that share; ``fraction`` the margin (the fraction of total impulse
+    those flights may still lose: the 1 - probability quantile of the samples' propulsion
+    margins), ``interval`` its distribution-free confidence interval (order statistics;
+    NaN when the study has too few samples for it), ``delta_v`` [m/s] the ideal delta-v of
+    the nominal vehicle that ``fraction`` of impulse is worth.
+
+    The method, a quantile of the Monte Carlo dispersion of the performance margin, is
+    that of NASA's launch-vehicle practice (J. M. Hanson and B. B. Beard, "Applying Monte
+    Carlo Simulation to Launch Vehicle Design and Requirements Analysis", NASA/TP-2010-
+    216447, 2010; from memory), where the 99.7 % (three-sigma) level is common.
+    """
+
+    probability: float
+    fraction: float
+    interval: tuple[float, float]
+    delta_v: float
+    samples: int
+    bounded: int
+    """Samples whose margin lay beyond the searched bracket (counted at its bound)."""
+
+
 @dataclass
 class ScatterResult:
-    """Percentiles, probability of meeting the target, and what drives the spread."""
+    """Percentiles, probability of meeting the target, and what drives the spread.
+
+    ``misses`` counts the flown samples that missed the target by reason ("energy",
+    "shape", "no result"); a miss never enters a margin statistic as a number.
+    ``intervals`` holds each percentile's 95 % confidence interval (order statistics,
+    :func:`propulsion.studies.statistics.quantile_interval`).
+    """
 
     mission: Mission
     samples: int
@@ -269,14 +275,19 @@ class ScatterResult:
     target: str
     required: float
     values: dict[str, FloatArray] = field(repr=False, default_factory=dict)
+    misses: dict[str, int] = field(default_factory=dict)
+    intervals: dict[str, dict[float, tuple[float, float]]] = field(default_factory=dict)
+    reserve: Reserve | None = None
+    target_unit: str = ""
 
     def to_frame(self) -> pd.DataFrame:
         """Percentiles of each output as a DataFrame (rows: outputs, columns: p1 ... p99)."""
         import pandas as pd
 
+        metrics = [m for m in METRICS if m in self.percentiles]
         return pd.DataFrame(
-            {f"p{p:g}": [self.percentiles[m][p] for m in METRICS] for p in PERCENTILES},
-            index=list(METRICS),
+            {f"p{p:g}": [self.percentiles[m][p] for m in metrics] for p in PERCENTILES},
+            index=metrics,
         )
 
     def to_dict(self) -> dict[str, Any]:
@@ -291,9 +302,26 @@ class ScatterResult:
             "bad_upper_stage_ignitions": self.bad_ignitions,
             "probability_of_meeting_target": self.probability,
             "probability_interval_95": list(self.interval),
+            "misses": self.misses,
             "percentiles": {
                 metric: {f"p{p:g}": value for p, value in table.items()}
                 for metric, table in self.percentiles.items()
+            },
+            "percentile_intervals_95": {
+                metric: {f"p{p:g}": list(bounds) for p, bounds in table.items()}
+                for metric, table in self.intervals.items()
+            },
+            "percentile_interval_method": "order statistics (binomial), distribution-free",
+            "margin_unit": self.target_unit,
+            "reserve": None
+            if self.reserve is None
+            else {
+                "probability": self.reserve.probability,
+                "propulsion_margin_fraction": self.reserve.fraction,
+                "interval_95": list(self.reserve.interval),
+                "ideal_delta_v_m_s": self.reserve.delta_v,
+                "samples": self.reserve.samples,
+                "beyond_bracket": self.reserve.bounded,
             },
             "drivers": [
                 {"field": name, "output": output, "spearman_rho": rho}
@@ -312,16 +340,28 @@ class ScatterResult:
 
 
 def summarise(
-    mission: Mission, aggregate: Aggregate, seed: int, chunks: int, workers: str, elapsed: float
+    mission: Mission,
+    aggregate: Aggregate,
+    seed: int,
+    chunks: int,
+    workers: str,
+    elapsed: float,
+    reserve: float | None = None,
 ) -> ScatterResult:
     """Turn the merged chunks into the study's statistics."""
     aggregate.ordered()
     percentiles: dict[str, dict[float, float]] = {}
+    intervals: dict[str, dict[float, tuple[float, float]]] = {}
     for row, metric in enumerate(METRICS):
+        if metric == "propulsion_margin" and reserve is None:
+            continue
         values = aggregate.outputs[row]
         values = values[np.isfinite(values)]
         percentiles[metric] = {
             p: float(np.percentile(values, p)) if values.size else math.nan for p in PERCENTILES
+        }
+        intervals[metric] = {
+            p: quantile_interval(values, p / 100.0, CONFIDENCE) for p in PERCENTILES
         }
     drivers: list[tuple[str, str, float]] = []
     output = METRICS.index("margin")
@@ -337,8 +377,25 @@ def summarise(
             rho = spearman(x, y[finite])
             drivers.append((dispersion.field, METRICS[output], rho))
     drivers.sort(key=lambda item: -abs(item[2]))
-    target = margins.Target(mission, flight.build_core(mission, ascent.flown_stages(mission)))
+    nominal = flight.build_core(mission, ascent.flown_stages(mission))
+    target = margins.Target(mission, nominal)
     probability = aggregate.meets / aggregate.valid if aggregate.valid else math.nan
+    found = None
+    if reserve is not None:
+        values = aggregate.outputs[METRICS.index("propulsion_margin")]
+        values = values[np.isfinite(values)]
+        if values.size:
+            fraction = float(np.quantile(values, 1.0 - reserve))
+            scaled = margins.scale_propulsion(nominal, np.array([1.0, 1.0 - fraction]))
+            ideal = margins.ideal_delta_v(scaled)
+            found = Reserve(
+                probability=reserve,
+                fraction=fraction,
+                interval=quantile_interval(values, 1.0 - reserve, CONFIDENCE),
+                delta_v=float(ideal[0] - ideal[1]),
+                samples=int(values.size),
+                bounded=int(np.sum((values >= 0.95 - 1e-12) | (values <= -4.0 + 1e-12))),
+            )
     return ScatterResult(
         mission=mission,
         samples=aggregate.total,
@@ -359,6 +416,10 @@ def summarise(
         target=target.kind,
         required=target.required,
         values={metric: aggregate.outputs[i].copy() for i, metric in enumerate(METRICS)},
+        misses=dict(sorted(aggregate.misses.items())),
+        intervals=intervals,
+        reserve=found,
+        target_unit={"length": "m", "speed": "m/s"}.get(target.dimension, ""),
     )
 
 
@@ -371,6 +432,7 @@ def scatter(
     cluster: str | Any | None = None,
     on_chunk: Callable[[ChunkResult], None] | None = None,
     progress: Callable[[int, int], None] | None = None,
+    reserve: float | None = None,
 ) -> ScatterResult:
     """Fly ``samples`` dispersed vehicles and summarise the outputs.
 
@@ -395,6 +457,10 @@ def scatter(
         Called with every chunk result as it arrives (for streaming per-sample output).
     progress : callable or None
         Called with (samples done, samples) as chunks arrive.
+    reserve : float or None
+        A probability (0.997 for the three-sigma flight-performance reserve): find every
+        sample's propulsion margin by root finding (about 15 more flights per sample) and
+        report the margin that share of the flights still has (:class:`Reserve`).
 
     Returns
     -------
@@ -422,6 +488,7 @@ def scatter(
         source=mission.source,
         base_dir=str(Path(mission.source).parent) if mission.source != "<mission>" else None,
         seed=seed,
+        reserve=reserve is not None,
     )
     aggregate = Aggregate(len(mission.dispersions))
     done = 0
@@ -443,4 +510,6 @@ def scatter(
             # a cluster's size is not known here: enough chunks to share out
             chunk_size = max(500, min(5000, math.ceil(samples / 8)))
     chunks, where = run_chunks(spec, samples, chunk_size, collect, workers=workers, cluster=cluster)
-    return summarise(mission, aggregate, seed, chunks, where, time.perf_counter() - started)
+    return summarise(
+        mission, aggregate, seed, chunks, where, time.perf_counter() - started, reserve
+    )
