@@ -537,7 +537,7 @@ def test_a_body_thrown_straight_up_lands_west(latitude: float) -> None:
 def test_earth_rotation_credit_at_the_site_is_omega_r_cos_lat_sin_azimuth() -> None:
     # The inertial velocity of the launch site projected on the launch direction is
     # omega R cos(lat) sin(azimuth) (H. D. Curtis, Orbital Mechanics for Engineering
-    # Students, 3rd ed., eq. 11.? and section 11.2, the velocity Earth's rotation gives a
+    # Students, 3rd ed., 2013, section 11.2 on the velocity Earth's rotation gives a
     # launch; from memory). The kernel's site frame and the pad's inertial velocity must
     # give exactly that.
     for lat, az in ((0.0, 90.0), (38.0, 90.0), (28.5, 45.0), (-60.0, 135.0)):

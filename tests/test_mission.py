@@ -9,6 +9,7 @@ from __future__ import annotations
 import math
 import pickle
 import re
+import tomllib
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
@@ -1034,3 +1035,17 @@ def test_mission_wide_residual_leaves_motor_stages_alone() -> None:
     mission = outcome(MOTOR_MISSION + '\n[margins]\nresidual_fraction = "10 %"\n')
     assert isinstance(mission, Mission)
     assert mission.vehicle.stages[0].residual_fraction == 0.0
+
+
+def test_the_readme_commented_example_loads() -> None:
+    # the README's commented mission file is a file a user may copy: it must load as shown
+    readme = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
+    start = readme.index("```toml", readme.index("### A commented example")) + len("```toml")
+    text = readme[start : readme.index("```", start)]
+    mission = parse_mission(
+        tomllib.loads(text),
+        source="README.md",
+        base_dir=Path(__file__).resolve().parents[1] / "missions",
+    )
+    assert [stage.name for stage in mission.vehicle.stages] == ["booster", "sustainer"]
+    assert mission.margins.flight.judge == "target"

@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+import copy
 import math
+import re
 from pathlib import Path
 from typing import Any
 
@@ -11,6 +13,7 @@ from scipy.optimize import brentq
 from typer.testing import CliRunner
 
 from propulsion import fields
+from propulsion.ascent import fly
 from propulsion.cli import app
 from propulsion.fields import FieldError
 from propulsion.ledger import budget
@@ -169,3 +172,49 @@ def test_size_command(tmp_path: Path) -> None:
     )
     assert json_result.exit_code == 0
     assert '"field": "vehicle.payload"' in json_result.stdout
+
+
+# --- reachability, ranges and the current value ------------------------------------------
+
+
+def test_a_maximum_inside_the_range_is_reported_with_where_it_lies() -> None:
+    # The hobby rocket's apogee against its inert mass rises (less drag deceleration per
+    # unit mass) and then falls (more mass to lift): a maximum near 0.41 kg of 1,623 m.
+    # A 2 km target is out of reach, and `size` says where the best lies.
+    mission = load_mission(MISSIONS / "hobby_single_stage.toml")
+    result = size(mission, "stage.sustainer.inert_mass", target="2 km")
+    assert not result.flight.found
+    assert "peaks at" in result.flight.message and "inside the range" in result.flight.message
+    peak, best = result.flight.peak_value, result.flight.peak_achieved
+    assert 0.2 < peak < 0.7 and 1500.0 < best < 2000.0
+    # checked on the flight: the apogee there beats the apogee 20 g to either side
+    doc = copy.deepcopy(mission.document)
+
+    def apogee(inert: float) -> float:
+        doc["stage"][0]["inert_mass"] = f"{inert!r} kg"
+        return fly(parse_mission(doc, base_dir=MISSIONS), margin=False).apogee
+
+    assert apogee(peak) == pytest.approx(best, rel=1e-9)
+    assert apogee(peak - 0.02) < best and apogee(peak + 0.02) < best
+
+
+def test_a_scale_field_is_searched_over_its_whole_allowed_range() -> None:
+    # impulse_scale may be up to 10 in a mission file; a target that needs more impulse
+    # than the motor has is found above 1 (the old range stopped at 0.999999).
+    mission = load_mission(MISSIONS / "hobby_single_stage.toml")
+    result = size(mission, "stage.sustainer.motor.impulse_scale", target="1.3 km")
+    assert result.flight.found and 1.0 < result.flight.value < 10.0
+    assert result.flight_result is not None and result.flight_result.apogee >= 1300.0 * 0.999
+
+
+def test_the_current_value_is_the_value_itself_even_at_zero() -> None:
+    # payload 0 kg: the search starts at 0 itself, so "the current value" and "0" in the
+    # message are the same flight with the same margin
+    doc = copy.deepcopy(load_mission(MISSIONS / "hobby_single_stage.toml").document)
+    doc["vehicle"]["payload"] = "0 kg"
+    result = size(parse_mission(doc, base_dir=MISSIONS), "vehicle.payload", target="20 km")
+    message = result.flight.message
+    current = re.search(r"margin ([-+0-9.e]+) at the current value", message)
+    at_zero = re.search(r", ([-+0-9.e]+) at 0,", message)
+    assert current is not None and at_zero is not None, message
+    assert float(current.group(1)) == float(at_zero.group(1))

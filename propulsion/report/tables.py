@@ -568,7 +568,9 @@ def margins_view(result: FlightResult, units: DisplayUnits) -> RenderableType:
         return f"{value:+.{digits}%}" if math.isfinite(value) else ""
 
     def judged(name: str) -> str:
-        return "◀ asks ≥ " + _asked(verdict, units) if verdict.judge == name else ""
+        if verdict.judge != name:
+            return ""
+        return "◀ asks ≥ " + _asked(verdict, units) if verdict.asked else "◀ judged"
 
     what = {
         "apogee": "target: apogee",
@@ -601,7 +603,7 @@ def margins_view(result: FlightResult, units: DisplayUnits) -> RenderableType:
             judged("payload"),
         )
     else:
-        table.add_row("propulsion, payload", "not computed (--no-margin)", "", "", "")
+        table.add_row("propulsion, payload", "—", "", "", "not searched (--no-margin)")
     return table
 
 
