@@ -120,15 +120,17 @@ _METRICS = {
     "max_mach": ("Max Mach", None),
     "max_dynamic_pressure_pa": ("Max dynamic pressure", "pressure"),
     "rail_exit_speed_m_s": ("Rail exit speed", "speed"),
-    "margin": ("Margin (target terms)", "target"),
+    "margin": ("Target margin", "target"),
     "downrange_m": ("Downrange at apogee", "length"),
 }
 
 _ASSUMPTIONS = (
-    "The vehicle is a point mass flying in a vertical plane: no attitude motion, no "
-    "out-of-plane motion.",
+    "The vehicle is a point mass flying in three dimensions over a rotating Earth: no "
+    "attitude motion of its own.",
     "Zero angle of attack: drag acts along the air-relative velocity and there is no lift; "
-    "the thrust direction follows the pitch programme.",
+    "the thrust follows the air-relative velocity (so a crosswind turns the rocket into "
+    "it), except on the rail, during the pitch programme, under upper-stage guidance, and "
+    "below the hold speed, where the last direction is held.",
     "Drag comes from a drag coefficient curve against Mach number, scaled by the vehicle's "
     "drag scale. The shipped curves are rough defaults, valid only for vehicles of the "
     "shape they describe; near Mach 1 (the transonic range, about Mach 0.8 to 1.2) the "
@@ -136,9 +138,9 @@ _ASSUMPTIONS = (
     "The atmosphere is the U.S. Standard Atmosphere 1976: no weather, no temperature or "
     "pressure deviations, no humidity. Wind is only the steady profile the mission file "
     "states, if any.",
-    "Earth is a sphere with inverse-square gravity (WGS 84 equatorial radius and GM), "
-    "rotating when the launch latitude and azimuth are given, or flat with standard "
-    "gravity when the mission asks for it.",
+    "Earth is a rotating sphere with inverse-square gravity (WGS 84 equatorial radius and "
+    "GM), or the WGS 84 ellipsoid with J2, or flat with standard gravity, as the mission "
+    "asks.",
     "No structural, thermal, aeroelastic or stability analysis: loads, heating, fin "
     "flutter, static margin and recovery are not checked.",
     "The pitch programme is open loop (a pitch kick, then a gravity turn or a linear "
@@ -147,7 +149,12 @@ _ASSUMPTIONS = (
     "mission file states; only the flight computes the losses.",
     "A dispersion study draws every uncertain field independently from the distribution "
     "the mission file gives it; its percentiles and probability carry sampling error "
-    "(the probability is given with its 95 % Wilson score interval).",
+    "(the probability is given with its 95 % Wilson score interval, the margin "
+    "percentiles with their 95 % order-statistic intervals).",
+    "The flight's verdict judges the margin the mission's [margins.flight] names (target, "
+    "propulsion or payload); the budget's loss allowances and required margin never enter "
+    "it. The propulsion margin scales every motor's impulse (or every engine stage's "
+    "propellant) by the same factor.",
 )
 
 _SOURCES = (
@@ -168,6 +175,14 @@ _SOURCES = (
     "Association 22(158), 209–212, 1927.",
     "Drivers of the spread: C. Spearman, “The proof and measurement of association "
     "between two things”, American Journal of Psychology 15(1), 72–101, 1904.",
+    "Intervals of the percentiles: W. J. Conover, Practical Nonparametric Statistics, "
+    "3rd ed., Wiley, 1999, section 3.2 (order statistics).",
+    "Flight-performance reserve: J. M. Hanson and B. B. Beard, “Applying Monte Carlo "
+    "Simulation to Launch Vehicle Design and Requirements Analysis”, NASA/TP-2010-216447, "
+    "2010 (from memory).",
+    "Root finding of the margins: R. P. Brent, Algorithms for Minimization without "
+    "Derivatives, Prentice-Hall, 1973; M. Dowell and P. Jarratt, “A modified regula falsi "
+    "method”, BIT 11, 168–174, 1971.",
 )
 
 
@@ -284,11 +299,11 @@ def _asked_text(verdict: FlightVerdict, units: DisplayUnits) -> str:
     return f"{_shown(verdict.asked, dimension or None, units)} {units.label(dimension)}".strip()
 
 
-def _verdict_box(meets: bool | None, heading: str, text: str) -> str:
+def _verdict_box(meets: bool | None, heading: str, text: str, fail_mark: str = "SHORT") -> str:
     if meets is None:
         css, mark = "none", "NO TARGET"
     else:
-        css, mark = ("pass", "PASS") if meets else ("short", "SHORT")
+        css, mark = ("pass", "PASS") if meets else ("short", fail_mark)
     return f'<p class="verdict {css}"><span class="mark">{mark}</span>{_e(heading)}: {_e(text)}</p>'
 
 
@@ -355,7 +370,16 @@ def _verdicts(page: _Page, plan: BudgetResult, flown: FlightResult) -> None:
         return f"{_shown(value, dimension or None, units)} {unit}".strip()
 
     page.add('<section id="verdict">\n<h2>Verdict and margins</h2>')
-    page.add(_verdict_box(verdict.meets_targets, "Flight", verdict.describe(fmt)))
+    from propulsion.report.tables import FAIL_MARKS
+
+    page.add(
+        _verdict_box(
+            verdict.meets_targets,
+            "Flight",
+            verdict.describe(fmt),
+            FAIL_MARKS.get(verdict.miss, "SHORT"),
+        )
+    )
     page.add(_verdict_box(plan.verdict.meets_targets, "Ideal budget", plan.verdict.describe(units)))
 
     dimension = verdict.dimension or None
@@ -857,7 +881,7 @@ def _dispersion(page: _Page, mission: Mission, spread: ScatterResult | None, fig
             f"<td>{_e(what)}</td><td>{_e(unit)}</td></tr>"
         )
     page.add(_table("Uncertain inputs", ["Field", "Distribution", "Parameters", "Unit"], rows, 9))
-    target_dimension = "length" if spread.target == "apogee" else "speed"
+    target_dimension = "speed" if spread.target == "burnout_speed" else "length"
     rows = []
     for metric, (title, dimension) in _METRICS.items():
         if dimension == "target":
