@@ -31,9 +31,12 @@ def budget_command(
     """
     from propulsion.ledger import budget
     from propulsion.mission import load_mission
+    from propulsion.report.files import all_or_nothing
 
-    with guard():
+    # the picture is moved into place when the block ends without an error
+    with guard(), all_or_nothing(mission_file) as outputs:
         mission = load_mission(mission_file)
+        outputs.protect(mission)
         if plot is not None:
             from propulsion.report.plots import check_plot_path
 

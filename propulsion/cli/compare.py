@@ -182,15 +182,18 @@ def compare_command(
 
     from propulsion.mission import load_mission
     from propulsion.report.export_tables import check_export_path, export_table
+    from propulsion.report.files import all_or_nothing
     from propulsion.studies.compare import COLUMNS, compare, resolve_column, resolve_columns
 
-    with guard():
+    # the export is moved into place when the block ends without an error
+    with guard(), all_or_nothing(*mission_files) as outputs:
         # everything that can be wrong with the input is found before anything flies
         sort_column = resolve_column(sort) if sort is not None else None
         shown = resolve_columns(columns) if columns is not None else None
+        missions = [load_mission(path) for path in mission_files]
+        outputs.protect(*missions)
         if export is not None:
             check_export_path(export, force)
-        missions = [load_mission(path) for path in mission_files]
         with Progress(
             TextColumn("Flying {task.description}"),
             BarColumn(),

@@ -46,13 +46,14 @@ def fly_command(
     """
     from propulsion.ascent import fly
     from propulsion.mission import load_mission
+    from propulsion.report.files import all_or_nothing, check_output
 
-    with guard():
+    # the outputs are written together when every one of them is ready, or not at all
+    with guard(), all_or_nothing(mission_file) as outputs:
         mission = load_mission(mission_file)
-        if trajectory is not None and trajectory.exists() and not force:
-            from propulsion.errors import OutputExistsError
-
-            raise OutputExistsError(trajectory)
+        outputs.protect(mission)
+        if trajectory is not None:
+            check_output(trajectory, force, suffixes=(".csv",))
         for picture in (plot, ledger_plot):
             if picture is not None:
                 from propulsion.report.plots import check_plot_path

@@ -39,10 +39,13 @@ def split_command(
     not, 2 on bad input.
     """
     from propulsion.mission import load_mission
+    from propulsion.report.files import all_or_nothing
     from propulsion.stage_split import split
 
-    with guard():
+    # the picture is moved into place when the block ends without an error
+    with guard(), all_or_nothing(mission_file) as outputs:
         mission = load_mission(mission_file)
+        outputs.protect(mission)
         if plot is not None:
             from propulsion.report.plots import check_plot_path
 

@@ -125,11 +125,14 @@ def sweep_command(
 
     from propulsion.mission import load_mission
     from propulsion.report.export_tables import check_export_path, export_table
+    from propulsion.report.files import all_or_nothing
     from propulsion.studies.compare import resolve_column
     from propulsion.studies.sweep import parse_axis, sweep
 
-    with guard():
+    # the outputs are written together when every one of them is ready, or not at all
+    with guard(), all_or_nothing(mission_file) as outputs:
         mission = load_mission(mission_file)
+        outputs.protect(mission)
         axes = [parse_axis(mission.document, text) for text in settings]
         sort_column = resolve_column(sort) if sort is not None else None
         if export is not None:

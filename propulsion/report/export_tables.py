@@ -14,7 +14,8 @@ from collections.abc import Mapping
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-from propulsion.errors import OutputExistsError, PropulsionError
+from propulsion.errors import PropulsionError
+from propulsion.report.safe_text import spreadsheet_text
 from propulsion.units import DIMENSIONS, DisplayUnits, format_number, to_display
 
 if TYPE_CHECKING:
@@ -28,6 +29,7 @@ __all__ = [
     "display_frame",
     "export_table",
     "markdown_table",
+    "safe_cells",
     "unit_dimension",
 ]
 
@@ -192,6 +194,38 @@ def display_frame(
     return out.rename(columns=names)
 
 
+def safe_cells(frame: pd.DataFrame) -> pd.DataFrame:
+    """The frame with every text cell and header made safe for a spreadsheet program.
+
+    Parameters
+    ----------
+    frame : pandas.DataFrame
+        A table about to be exported; its text may come from a mission file (a name, a
+        description, a file name).
+
+    Returns
+    -------
+    pandas.DataFrame
+        A new frame: each text (``str``) cell and header through
+        :func:`propulsion.report.safe_text.spreadsheet_text` (control characters removed, a
+        single quote before a leading ``=``, ``+``, ``-``, ``@`` or tab, so that no program
+        opens it as a formula). Numbers, flags and missing values are left as they are: a
+        negative number stays a number.
+
+    References
+    ----------
+    .. [1] OWASP Foundation, "CSV Injection", owasp.org/www-community/attacks/CSV_Injection.
+    """
+    out = frame.copy()
+    for column in frame.columns:
+        values = list(frame[column])
+        if any(isinstance(value, str) for value in values):
+            out[column] = [
+                spreadsheet_text(value) if isinstance(value, str) else value for value in values
+            ]
+    return out.rename(columns={c: spreadsheet_text(c) for c in frame.columns if isinstance(c, str)})
+
+
 def _cell(value: Any, digits: int) -> str:
     if value is None:
         return "—"
@@ -269,18 +303,26 @@ def check_export_path(path: str | Path, force: bool = False) -> str:
         The extension is not one of :data:`EXPORT_FORMATS`.
     OutputExistsError
         The file exists and ``force`` is False.
+    OutputError
+        An input of the command, not a regular file, or a folder that takes no file
+        (:func:`propulsion.report.files.check_output`).
 
     References
     ----------
     .. [1] RFC 4180 (CSV), ECMA-376 Part 1 (.xlsx) and the GitHub Flavored Markdown Spec
        0.29-gfm (pipe tables): the formats behind the three extensions.
     """
-    target = Path(path)
+    from propulsion.report.files import check_output
+
+    check_output(path, force, check_name=_export_suffix)
+    return _export_suffix(Path(path))
+
+
+def _export_suffix(target: Path) -> str:
+    """The extension, lower case; :class:`ExportFormatError` for an unknown one."""
     suffix = target.suffix.lower()
     if suffix not in EXPORT_FORMATS:
         raise ExportFormatError(target)
-    if target.exists() and not force:
-        raise OutputExistsError(target)
     return suffix
 
 
@@ -351,9 +393,13 @@ def export_table(
     .. [2] ECMA-376, Office Open XML File Formats, Part 1 (the .xlsx workbook).
     .. [3] GitHub Flavored Markdown Spec, version 0.29-gfm, 2019, "Tables (extension)"
        (recalled from memory).
+    .. [4] OWASP Foundation, "CSV Injection", owasp.org/www-community/attacks/CSV_Injection
+       (text cells are written by :func:`safe_cells`).
     """
-    suffix = check_export_path(path, force)
-    shown = display_frame(frame, units, dimensions)
+    # the name only: write_atomic checks the rest (check_export_path claimed the file)
+    suffix = _export_suffix(Path(path))
+    # text from mission files: no control characters, no formulas (in all three formats)
+    shown = safe_cells(display_frame(frame, units, dimensions))
     content: str | bytes
     if suffix == ".csv":
         buffer = io.StringIO()

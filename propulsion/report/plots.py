@@ -29,7 +29,7 @@ import numpy.typing as npt
 
 from propulsion import __version__
 from propulsion.atmosphere import TOP_ALTITUDE
-from propulsion.errors import OutputExistsError, RequestError
+from propulsion.errors import RequestError
 from propulsion.units import DisplayUnits, format_number, to_display
 
 if TYPE_CHECKING:
@@ -159,16 +159,17 @@ def check_plot_path(path: str | Path, force: bool = False) -> Path:
         The extension is neither ``.png`` nor ``.svg``.
     OutputExistsError
         The file exists and ``force`` is False.
+    OutputError
+        An input of the command, not a regular file, or a folder that takes no file
+        (:func:`propulsion.report.files.check_output`).
 
     References
     ----------
     .. [1] ISO/IEC 15948:2004 (PNG) and W3C SVG 1.1, 2nd ed., 2011.
     """
-    target = Path(path)
-    plot_format(target)
-    if target.exists() and not force:
-        raise OutputExistsError(target)
-    return target
+    from propulsion.report.files import check_output
+
+    return check_output(path, force, check_name=plot_format)
 
 
 def figure_bytes(figure: Figure, fmt: str = "png") -> bytes:
@@ -239,7 +240,8 @@ def save_figure(figure: Figure, path: str | Path, force: bool = False) -> Path:
     """
     from propulsion.report.files import write_atomic
 
-    target = check_plot_path(path, force)
+    # the name only: write_atomic checks the rest (check_plot_path claimed the file)
+    target = Path(path)
     return write_atomic(target, figure_bytes(figure, plot_format(target)), force)
 
 
