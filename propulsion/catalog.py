@@ -5,39 +5,237 @@ lines are metadata whose values may be quantities (``# diameter = 29 mm``). The 
 other line is the header; a column name carries its unit in brackets (``time [s]``),
 and a column without brackets is a plain number or text. Values are converted to SI
 here, once, so that nothing downstream sees a unit.
+
+A file a mission names (``[stage.motor] file``, a ``drag_curve`` path) is untrusted input:
+:func:`user_data_file` finds it relative to the mission file's folder and refuses a path
+that leads out of that folder, and :func:`read_table` reads only regular files of at most
+:data:`MAX_TABLE_BYTES`. Error messages quote at most :data:`EXCERPT_LENGTH` characters of
+a file's content, since the file may not be a data table at all.
 """
 
 from __future__ import annotations
 
+import contextvars
 import csv
 import math
+import os
 import re
-from dataclasses import dataclass
+import stat
+from collections.abc import Iterator
+from contextlib import contextmanager
+from dataclasses import dataclass, field
 from functools import cache
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
 from propulsion import thrust_curve as tc
-from propulsion.errors import DataFileError, MissionFileNotFoundError
+from propulsion.errors import DataFileError, MissionFileNotFoundError, PropulsionError
 from propulsion.units import MAX_MAGNITUDE, UnitParseError, parse_quantity
 from propulsion.vehicle import DragCurve, Motor
 
 __all__ = [
+    "EXCERPT_LENGTH",
+    "MAX_TABLE_BYTES",
+    "DataPathError",
     "PropellantFamily",
     "Table",
     "data_dir",
     "drag_curve_names",
+    "excerpt",
     "load_drag_curve",
     "load_motor",
     "motor_names",
     "propellant_families",
     "read_table",
     "read_thrust_curve",
+    "trusted_folders",
+    "user_data_file",
 ]
 
 _HEADER_RE = re.compile(r"^\s*(?P<name>[^\[]+?)\s*(?:\[(?P<unit>[^\]]*)\])?\s*$")
 _META_RE = re.compile(r"^#\s*(?P<key>[A-Za-z_][A-Za-z0-9_]*)\s*=\s*(?P<value>.*?)\s*$")
+# C0 controls and DEL (ECMA-48, 5th ed., 1991, section 5.2): never part of a file name
+# a mission may give
+_CONTROL_RE = re.compile("[\x00-\x1f\x7f]")
+
+EXCERPT_LENGTH = 20
+"""The most characters of a file's content an error message quotes [characters]."""
+
+MAX_TABLE_BYTES = 16 * 1024 * 1024
+"""The largest data table read [bytes]. A static-test thrust curve sampled at 10 kHz for
+30 s is about 6 MB; anything larger is not a curve this tool can use."""
+
+# folders whose files a mission may name besides its own folder (see trusted_folders)
+_TRUSTED: contextvars.ContextVar[tuple[Path, ...]] = contextvars.ContextVar(
+    "propulsion_trusted_folders", default=()
+)
+
+
+def excerpt(text: str, length: int = EXCERPT_LENGTH) -> str:
+    """A value from a file as an error message may quote it: quoted, at most ``length`` long.
+
+    Parameters
+    ----------
+    text : str
+        The offending value (a cell, a unit, a metadata value).
+    length : int
+        The most characters shown [count]; longer values end in ``…``.
+
+    Returns
+    -------
+    str
+        The start of the value in Python's quoted form (control characters escaped, so
+        the message never carries one), with an ellipsis when it was cut.
+    """
+    if len(text) <= length:
+        return repr(text)
+    return repr(text[:length] + "…")
+
+
+def _clip(text: str, length: int = EXCERPT_LENGTH) -> str:
+    """A column name or key from a file, cut like :func:`excerpt`, without quotes."""
+    return text if len(text) <= length else text[:length] + "…"
+
+
+class DataPathError(PropulsionError, ValueError):
+    """A data file named by a mission that is not read: outside the mission's folder, not
+    a regular file, missing or unreadable.
+
+    Parameters
+    ----------
+    path : str or Path
+        The path as the mission gave it, joined to the mission's folder.
+    problem : str
+        What is wrong, in plain words (it names the path).
+    expected : str
+        What would have been accepted.
+    """
+
+    def __init__(self, path: str | Path, problem: str, expected: str = "") -> None:
+        self.path = str(path)
+        self.problem = problem
+        self.expected = expected
+        super().__init__(self.path, problem, expected)
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        return (type(self), (self.path, self.problem, self.expected))
+
+    def __str__(self) -> str:
+        message = self.problem.rstrip(".") + "."
+        if self.expected:
+            message += f" Expected {self.expected.rstrip('.')}."
+        return message
+
+
+@contextmanager
+def trusted_folders(*folders: str | Path) -> Iterator[None]:
+    """Let missions checked inside the block also name files in these folders.
+
+    A caller that was given a folder by the user (``pick --motors FOLDER``) builds mission
+    documents naming that folder's files; the user chose the folder, so it is as trusted
+    as the mission's own. The trust ends with the block (a context variable: it holds for
+    this thread and this task only).
+
+    Parameters
+    ----------
+    *folders : str or Path
+        The folders; their files and sub-folders may be named.
+    """
+    resolved = tuple(Path(folder).resolve() for folder in folders)
+    token = _TRUSTED.set(_TRUSTED.get() + resolved)
+    try:
+        yield
+    finally:
+        _TRUSTED.reset(token)
+
+
+def _file_kind(mode: int) -> str:
+    if stat.S_ISDIR(mode):
+        return "a folder"
+    if stat.S_ISFIFO(mode):
+        return "a named pipe"
+    if stat.S_ISCHR(mode) or stat.S_ISBLK(mode):
+        return "a device"
+    if stat.S_ISSOCK(mode):
+        return "a socket"
+    return "some other kind of file"
+
+
+def user_data_file(text: str, base_dir: str | Path, what: str = "data file") -> Path:
+    """Find a data file a mission names, and refuse one it may not read.
+
+    The mission file is untrusted input: one from someone else may name any file of the
+    machine it runs on (``/etc/shadow`` as a thrust curve, ``/proc/self/environ`` as a drag
+    curve) and the error messages would show parts of it. So a mission may name only files
+    in its own folder or below it:
+
+    * a relative path is joined to the mission's folder; an absolute path is taken as it
+      is; either way the file, **with its symbolic links followed**, must lie in that
+      folder (or in a folder of :func:`trusted_folders`). A ``..`` that leaves the folder
+      is refused, and so is a link that points out of it: a shared repository or archive
+      can carry a link to any file of the reader's machine. A link within the folder, or a
+      ``..`` that comes back into it, is fine: it reads nothing the folder does not hold.
+    * the file must be a regular file: a folder, a named pipe (reading one waits for a
+      writer), a device or a socket is refused.
+
+    Parameters
+    ----------
+    text : str
+        The path as written in the mission.
+    base_dir : str or Path
+        The mission file's folder (relative to the working folder, or absolute).
+    what : str
+        What the file is, for the messages (``"thrust curve"``).
+
+    Returns
+    -------
+    Path
+        The path as given, joined to ``base_dir`` (the path the messages name).
+
+    Raises
+    ------
+    DataPathError
+        The path leaves the folder, the file does not exist, is not a regular file or
+        cannot be examined.
+    """
+    if _CONTROL_RE.search(text):
+        raise DataPathError(
+            text, f"the file name {excerpt(text)} holds control characters", "a plain file name"
+        )
+    given = Path(text)
+    path = given if given.is_absolute() else Path(base_dir) / given
+    inside = "a file in the mission file's folder or below it, named relative to that folder"
+    try:
+        folder = Path(base_dir).resolve()
+        resolved = path.resolve()
+    except (OSError, RuntimeError, ValueError) as exc:  # a loop of links, a name too long
+        raise DataPathError(path, f"the path {path} cannot be followed ({exc})", inside) from None
+    roots = (folder, *_TRUSTED.get())
+    if not any(resolved.is_relative_to(root) for root in roots):
+        lexical = Path(os.path.normpath(os.path.abspath(path)))
+        if given.is_absolute():
+            how = "is outside"
+        elif lexical.is_relative_to(os.path.abspath(base_dir)):
+            how = "is a symbolic link (or goes through one) to a file outside"
+        else:
+            how = "leads outside"
+        raise DataPathError(path, f"{text} {how} the mission file's folder {folder}", inside)
+    try:
+        info = resolved.stat()
+    except FileNotFoundError:
+        raise DataPathError(path, f"{what} not found: {path}", "an existing CSV file") from None
+    except OSError as exc:
+        reason = exc.strerror or type(exc).__name__
+        raise DataPathError(path, f"{path} cannot be read ({reason})", "a readable file") from None
+    if not stat.S_ISREG(info.st_mode):
+        raise DataPathError(
+            path,
+            f"{path} is not a regular file: it is {_file_kind(info.st_mode)}",
+            "a CSV file",
+        )
+    return path
 
 
 def is_file(path: Path) -> bool:
@@ -70,6 +268,7 @@ class Table:
     units: dict[str, str | None]
     header_line: int
     row_lines: list[int]
+    metadata_lines: dict[str, int] = field(default_factory=dict)
 
     def line(self, row: int) -> int:
         """The file line of data row ``row`` (0-based)."""
@@ -88,8 +287,12 @@ class Table:
                 factor = parse_quantity(f"1 {unit}", dimension)
             except UnitParseError as exc:
                 raise DataFileError(
-                    self.path, name, f"header unit: {exc.reason}", dimension, self.header_line
-                ) from exc
+                    self.path,
+                    _clip(name),
+                    f"header unit {_unit_problem(unit, exc)}",
+                    f"a unit of {dimension}",
+                    self.header_line,
+                ) from None
         values = []
         for row, text in enumerate(self.columns[name]):
             try:
@@ -97,15 +300,15 @@ class Table:
             except ValueError:
                 raise DataFileError(
                     self.path,
-                    name,
-                    f"{text!r} is not a number",
+                    _clip(name),
+                    f"{excerpt(text)} is not a number",
                     "a number",
                     self.line(row),
                 ) from None
             if not math.isfinite(value) or abs(value * factor) > MAX_MAGNITUDE:
                 raise DataFileError(
                     self.path,
-                    name,
+                    _clip(name),
                     "value is not finite",
                     "a finite number",
                     self.line(row),
@@ -121,21 +324,86 @@ class Table:
         try:
             return parse_quantity(text, dimension)
         except UnitParseError as exc:
-            raise DataFileError(self.path, key, exc.reason, dimension) from exc
+            raise DataFileError(
+                self.path,
+                key,
+                _unit_problem(text, exc),
+                f"a quantity of {dimension} with its unit",
+                self.metadata_lines.get(key),
+            ) from None
+
+
+def _unit_problem(text: str, exc: UnitParseError) -> str:
+    """Why a unit or quantity text from a file was refused, quoting at most an excerpt.
+
+    The parser's reason is kept unless it quotes more than an excerpt of the text.
+    """
+    width = EXCERPT_LENGTH + 1
+    echoes = any(text[i : i + width] in exc.reason for i in range(len(text) - width + 1))
+    if echoes:
+        return f"{excerpt(text)} cannot be read"
+    return f"{excerpt(text)}: {exc.reason}"
+
+
+def _read_bytes(path: Path) -> bytes:
+    """The content of a regular file of at most MAX_TABLE_BYTES, or a located refusal.
+
+    The file is opened without waiting (``O_NONBLOCK``: opening a named pipe for reading
+    would wait for a writer) and examined through the open descriptor, so what is checked
+    is what is read.
+    """
+    flags = os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_BINARY", 0)
+    try:
+        descriptor = os.open(path, flags)
+    except FileNotFoundError:
+        raise MissionFileNotFoundError(path, "data file") from None
+    except OSError as exc:
+        reason = exc.strerror or type(exc).__name__
+        raise DataFileError(
+            path, "", f"the file cannot be read ({reason})", "a file you may read"
+        ) from None
+    with open(descriptor, "rb") as handle:
+        info = os.fstat(handle.fileno())
+        if not stat.S_ISREG(info.st_mode):
+            raise DataFileError(
+                path, "", f"not a regular file: it is {_file_kind(info.st_mode)}", "a CSV file"
+            )
+        too_big = DataFileError(
+            path,
+            "",
+            f"the file is larger than {MAX_TABLE_BYTES // (1024 * 1024)} MiB",
+            "a data table (a thrust curve or a drag curve is a few kB)",
+        )
+        if info.st_size > MAX_TABLE_BYTES:
+            raise too_big
+        try:
+            content = handle.read(MAX_TABLE_BYTES + 1)
+        except OSError as exc:
+            reason = exc.strerror or type(exc).__name__
+            raise DataFileError(
+                path, "", f"the file cannot be read ({reason})", "a file you may read"
+            ) from None
+    if len(content) > MAX_TABLE_BYTES:
+        raise too_big
+    return content
 
 
 def read_table(path: Path) -> Table:
-    """Read a data table in the project's CSV layout (see the module docstring)."""
-    if not is_file(path):
-        raise MissionFileNotFoundError(path, "data file")
+    """Read a data table in the project's CSV layout (see the module docstring).
+
+    Only a regular file of at most :data:`MAX_TABLE_BYTES` is read; a missing file raises
+    :class:`MissionFileNotFoundError`, anything else that cannot be used a located
+    :class:`DataFileError`, whose message quotes at most an excerpt of the file.
+    """
     metadata: dict[str, str] = {}
+    metadata_lines: dict[str, int] = {}
     header: list[str] | None = None
     header_line = 0
     rows: list[list[str]] = []
     row_lines: list[int] = []
     try:
         # utf-8-sig: spreadsheet programs start their CSV files with a byte-order mark
-        text = path.read_text(encoding="utf-8-sig")
+        text = _read_bytes(path).decode("utf-8-sig")
     except UnicodeDecodeError as exc:
         raise DataFileError(path, "", "the file is not UTF-8 text", "a UTF-8 CSV file") from exc
     for number, line in enumerate(text.splitlines(), start=1):
@@ -146,6 +414,7 @@ def read_table(path: Path) -> Table:
             match = _META_RE.match(stripped)
             if match:
                 metadata[match["key"]] = match["value"]
+                metadata_lines[match["key"]] = number
             continue
         cells = next(csv.reader([stripped]))
         if header is None:
@@ -169,17 +438,23 @@ def read_table(path: Path) -> Table:
     for cell in header:
         match = _HEADER_RE.match(cell)
         if match is None:
-            raise DataFileError(path, cell, "header cell unreadable", "'name [unit]'", header_line)
+            raise DataFileError(
+                path,
+                "",
+                f"header cell {excerpt(cell.strip())} unreadable",
+                "'name [unit]'",
+                header_line,
+            )
         name = match["name"].strip()
         if name in seen:
             raise DataFileError(
-                path, name, "the column appears twice", "distinct column names", header_line
+                path, _clip(name), "the column appears twice", "distinct column names", header_line
             )
         seen.add(name)
         names.append(name)
         units[name] = match["unit"]
     columns = {name: [row[i] for row in rows] for i, name in enumerate(names)}
-    return Table(path, metadata, columns, units, header_line, row_lines)
+    return Table(path, metadata, columns, units, header_line, row_lines, metadata_lines)
 
 
 @dataclass(frozen=True)
@@ -236,11 +511,20 @@ def drag_curve_names() -> list[str]:
     return sorted(path.stem for path in (data_dir() / "drag").glob("*.csv"))
 
 
+def _shipped(kind: str) -> set[str]:
+    """The names of the shipped tables of one kind (``motors``, ``drag``): file stems."""
+    return {path.stem for path in (data_dir() / kind).glob("*.csv")}
+
+
 @cache
 def load_motor(name: str) -> Motor:
-    """Load a shipped motor by name (``data/motors/NAME.csv``)."""
+    """Load a shipped motor by name (``data/motors/NAME.csv``).
+
+    Only the names of the shipped files are looked up, so a name cannot lead out of the
+    folder (``../drag/slender_finned``).
+    """
     path = data_dir() / "motors" / f"{name}.csv"
-    if not path.is_file():
+    if name not in _shipped("motors"):
         raise MissionFileNotFoundError(path, f"motor '{name}'")
     return read_thrust_curve(path)
 
@@ -254,10 +538,20 @@ def read_thrust_curve(
     """Read a thrust curve (``time [s], thrust [N]``) with optional metadata into a Motor.
 
     Values given as arguments override the file's metadata. A curve whose file states no
-    propellant mass needs one given here.
+    propellant mass needs one given here. Both columns must state their unit: a column
+    without one is a plain number (data/README.md), not seconds or newtons.
     """
     table = read_table(path)
     time_column, thrust_column = _curve_columns(table)
+    for column, quantity in ((time_column, "time"), (thrust_column, "thrust")):
+        if not (table.units[column] or "").strip():
+            raise DataFileError(
+                path,
+                _clip(column),
+                f"the {quantity} column states no unit (a column without one is a plain number)",
+                "a header with units, such as 'time [s],thrust [N]'",
+                table.header_line,
+            )
     time = table.numeric(time_column, "time")
     thrust = table.numeric(thrust_column, "force")
     try:
@@ -291,6 +585,14 @@ def read_thrust_curve(
             path, "loaded_mass", "is less than the propellant mass", "loaded mass ≥ propellant"
         )
     family = propellant_family or table.metadata.get("propellant_family")
+    if propellant_family is None and family is not None and family not in propellant_families():
+        raise DataFileError(
+            path,
+            "propellant_family",
+            f"unknown propellant family {excerpt(family)}",
+            "a key from data/propellants.csv (see `propulsion data`)",
+            table.metadata_lines.get("propellant_family"),
+        )
     return Motor(
         name=table.metadata.get("name", path.stem),
         time=time - time[0],
@@ -310,7 +612,7 @@ def _curve_columns(table: Table) -> tuple[str, str]:
             table.path,
             "",
             f"{len(names)} columns",
-            "two columns: time and thrust",
+            "two columns: 'time [s],thrust [N]'",
             table.header_line,
         )
     return names[0], names[1]
@@ -318,16 +620,32 @@ def _curve_columns(table: Table) -> tuple[str, str]:
 
 @cache
 def load_drag_curve(name_or_path: str, relative_to: Path | None = None) -> DragCurve:
-    """Load a drag curve by shipped name (``data/drag/NAME.csv``) or by file path."""
-    shipped = data_dir() / "drag" / f"{name_or_path}.csv"
-    path = shipped
-    if not is_file(shipped):
+    """Load a drag curve by shipped name (``data/drag/NAME.csv``) or by file path.
+
+    Parameters
+    ----------
+    name_or_path : str
+        The name of a shipped curve, or the path of a CSV file.
+    relative_to : Path or None
+        The mission file's folder: a path is found relative to it and must stay in it
+        (:func:`user_data_file`). None: a path the caller gives, read as it is.
+
+    Raises
+    ------
+    DataPathError
+        With ``relative_to``: the file is outside that folder, missing, or not a file.
+    MissionFileNotFoundError
+        Without ``relative_to``: the file does not exist.
+    DataFileError
+        The file is not a drag curve.
+    """
+    if name_or_path in _shipped("drag"):
+        path = data_dir() / "drag" / f"{name_or_path}.csv"
+    elif relative_to is not None:
+        known = ", ".join(drag_curve_names())
+        path = user_data_file(name_or_path, relative_to, f"drag curve (shipped ones: {known})")
+    else:
         path = Path(name_or_path)
-        if relative_to is not None and not path.is_absolute():
-            path = relative_to / path
-        if not is_file(path):
-            known = ", ".join(drag_curve_names())
-            raise MissionFileNotFoundError(path, f"drag curve (shipped ones: {known})")
     table = read_table(path)
     names = list(table.columns)
     if len(names) != 2:

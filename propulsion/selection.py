@@ -579,6 +579,7 @@ def pick(
        eq. 2.80 (energy law) and sections 11.3 and 11.5 (rocket equation, staging).
     .. [2] Common geometry of equal circles in a circle (the cluster fit).
     """
+    from propulsion import catalog
     from propulsion.ascent import fly
     from propulsion.ledger import budget
     from propulsion.mission import parse_mission
@@ -600,6 +601,8 @@ def pick(
     leg = _leg_template(mission, target_apogee)
     options = motor_options(motors)
     base_dir = Path(mission.source).parent
+    # the user's own motor folder may lie outside the mission's folder (catalog.user_data_file)
+    folders = {option.file.parent for option in options if option.file is not None}
 
     per_section = [
         [
@@ -632,7 +635,8 @@ def pick(
             document["stage"] = stages
             document["leg"] = [{**copy.deepcopy(leg), "stages": list(names)}]
             document.pop("dispersion", None)  # uncertainties name the mission's own stages
-            candidate = parse_mission(document, source=mission.source, base_dir=base_dir)
+            with catalog.trusted_folders(*folders):
+                candidate = parse_mission(document, source=mission.source, base_dir=base_dir)
             first = candidate.legs[0]
             target = first.fields["altitude"]
             allowance = first.fields.get("loss_allowance", 0.0)

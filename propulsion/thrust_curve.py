@@ -200,12 +200,13 @@ def impulse_class(total_impulse: float) -> str:
     Returns
     -------
     impulse_class : str
-        ``"1/8A"``, ``"1/4A"``, ``"1/2A"`` or a letter ``"A"`` to ``"Z"``.
+        ``"1/8A"``, ``"1/4A"``, ``"1/2A"``, a letter ``"A"`` to ``"Z"``, or ``">Z"`` above
+        the Z class (a large booster's impulse is a valid input; it has no letter).
 
     Raises
     ------
     ValueError
-        If ``total_impulse`` is not finite, not positive, or beyond the Z class.
+        If ``total_impulse`` is not finite or not positive.
 
     Notes
     -----
@@ -236,9 +237,7 @@ def impulse_class(total_impulse: float) -> str:
         if value <= upper:
             return letter
         upper *= 2.0
-    raise ValueError(
-        f"total impulse {value} N s exceeds the Z class upper bound ({upper / 2.0} N s)"
-    )
+    return ">Z"
 
 
 def validate_thrust_curve(time: npt.ArrayLike, thrust: npt.ArrayLike) -> None:

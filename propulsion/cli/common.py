@@ -17,6 +17,7 @@ from rich.text import Text
 
 from propulsion.errors import PropulsionError
 from propulsion.report.cautions import SAFETY_CAUTION
+from propulsion.report.safe_text import SafeConsole, printable
 from propulsion.units import DisplayUnits, display_units
 
 __all__ = ["UnitSystem", "emit_json", "guard", "state", "stderr", "stdout"]
@@ -42,13 +43,13 @@ class UnitSystem(StrEnum):
 
 
 def stdout() -> Console:
-    """A console on standard output."""
-    return Console()
+    """A console on standard output; it writes no control code from the text it shows."""
+    return SafeConsole()
 
 
 def stderr() -> Console:
-    """A console on standard error."""
-    return Console(stderr=True)
+    """A console on standard error; it writes no control code from the text it shows."""
+    return SafeConsole(stderr=True)
 
 
 @contextmanager
@@ -61,8 +62,13 @@ def guard() -> Iterator[None]:
         yield
     except PropulsionError as exc:
         if state.debug:
-            raise
-        message = Text.assemble(("error: ", "bold red"), str(exc))  # never read as markup
+            # the traceback for the developer, and still the exit code of bad input
+            import traceback
+
+            traceback.print_exc(file=sys.stderr)
+            raise typer.Exit(exc.exit_code) from None
+        # never read as markup; the message may quote a file's text: no control codes
+        message = Text.assemble(("error: ", "bold red"), printable(str(exc)))
         stderr().print(message, highlight=False, soft_wrap=True)
         raise typer.Exit(exc.exit_code) from None
 
