@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 import numpy.typing as npt
 
@@ -10,6 +12,10 @@ ArrayLike = float | npt.NDArray[np.float64]
 
 def as_finite(name: str, value: ArrayLike) -> npt.NDArray[np.float64]:
     """Convert ``value`` to a float64 array and reject NaN and infinity."""
+    if type(value) is float:  # the common scalar case, without numpy's reductions
+        if not math.isfinite(value):
+            raise ValueError(f"{name} must be finite, got {value!r}")
+        return np.float64(value)  # type: ignore[return-value]
     arr = np.asarray(value, dtype=np.float64)
     if not np.all(np.isfinite(arr)):
         raise ValueError(f"{name} must be finite, got {value!r}")
@@ -19,6 +25,10 @@ def as_finite(name: str, value: ArrayLike) -> npt.NDArray[np.float64]:
 def as_positive(name: str, value: ArrayLike) -> npt.NDArray[np.float64]:
     """As :func:`as_finite`, and every value above zero."""
     arr = as_finite(name, value)
+    if arr.ndim == 0:
+        if not float(arr) > 0.0:
+            raise ValueError(f"{name} must be greater than zero, got {value!r}")
+        return arr
     if np.any(arr <= 0.0):
         raise ValueError(f"{name} must be greater than zero, got {value!r}")
     return arr

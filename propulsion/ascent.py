@@ -400,24 +400,32 @@ def tune_kick(
     target = Target(mission, core)
     if target.kind != "circular_orbit":
         raise ValueError("kick tuning is for circular_orbit targets")
-    angles = np.linspace(
-        max(core.kick_angle[0] - span, math.radians(0.1)), core.kick_angle[0] + span, count
-    )
-    batch = core.take(np.zeros(count, dtype=np.int64))
-    batch.kick_angle = angles
-    outcome = flight.simulate(batch)
-    margins = target.energy_margin(batch, outcome)
-    reached = (outcome.status == "orbit") & (
-        perigee_altitude(outcome.state("final")) >= MIN_PERIGEE
-    )
-    if not np.any(reached):
-        return float(core.kick_angle[0]), -math.inf
-    # prefer the angles whose orbit lies within the target's tolerance band
-    band = target.judge(batch, outcome).target_margin
-    in_band = reached & np.isfinite(band) & (band >= 0)
-    candidates = in_band if np.any(in_band) else reached
-    best = int(np.argmax(np.where(candidates, margins, -np.inf)))
-    return float(angles[best]), float(margins[best])
+    low = max(core.kick_angle[0] - span, math.radians(0.1))
+    high = core.kick_angle[0] + span
+    best_angle, best_margin = float(core.kick_angle[0]), -math.inf
+    # a coarse pass over the span, then a fine one across the best coarse angle's
+    # neighbours: the orbit's shape changes fast with the kick (tenths of a degree move
+    # the perigee by tens of kilometres)
+    for _ in range(2):
+        angles = np.linspace(low, high, count)
+        batch = core.take(np.zeros(count, dtype=np.int64))
+        batch.kick_angle = angles
+        outcome = flight.simulate(batch)
+        margins = target.energy_margin(batch, outcome)
+        reached = (outcome.status == "orbit") & (
+            perigee_altitude(outcome.state("final")) >= MIN_PERIGEE
+        )
+        if not np.any(reached):
+            break
+        # prefer the angles whose orbit lies within the target's tolerance band
+        band = target.judge(batch, outcome).target_margin
+        in_band = reached & np.isfinite(band) & (band >= 0)
+        candidates = in_band if np.any(in_band) else reached
+        best = int(np.argmax(np.where(candidates, margins, -np.inf)))
+        best_angle, best_margin = float(angles[best]), float(margins[best])
+        step = (high - low) / max(count - 1, 1)
+        low, high = max(best_angle - step, math.radians(0.1)), best_angle + step
+    return best_angle, best_margin
 
 
 def bad_ignitions(core: flight.FlightCore, outcome: flight.Outcome) -> np.ndarray:
@@ -646,7 +654,16 @@ def _ledger(core: flight.FlightCore, outcome: flight.Outcome) -> list[LossLedger
 
 
 def _findings(result: FlightResult, core: flight.FlightCore) -> list[Finding]:
-    findings: list[Finding] = []
+    findings: list[Finding] = [
+        Finding(
+            "table",
+            note,
+            f"a table of more than {flight.state.TABLE_LIMIT} points is thinned before "
+            "flight, within the stated tolerance",
+            "Douglas and Peucker, The Canadian Cartographer 10(2), 1973",
+        )
+        for note in core.notes
+    ]
     if result.status == "no liftoff":
         findings.append(
             Finding(

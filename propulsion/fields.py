@@ -11,19 +11,26 @@ from __future__ import annotations
 
 import copy
 import difflib
+import math
 from dataclasses import dataclass
 from typing import Any
 
+import numpy as np
+import numpy.typing as npt
+
 from propulsion.errors import PropulsionError
 from propulsion.targets import TARGET_KINDS
-from propulsion.units import DIMENSIONS, UnitParseError, parse_quantity
+from propulsion.units import DIMENSIONS, MAX_MAGNITUDE, UnitParseError, parse_quantity
 
 __all__ = [
     "LIMITS",
+    "RANGES",
     "FieldError",
     "FieldRef",
+    "Range",
     "get_value",
     "numeric_fields",
+    "range_of",
     "resolve",
     "set_value",
 ]
@@ -93,6 +100,78 @@ LIMITS: dict[str, tuple[float, float]] = {
     "tank_fraction": (0.0, 1.0),
     "propellant_mass_fraction": (0.0, 1.0),
 }
+
+
+@dataclass(frozen=True)
+class Range:
+    """The values a field may take in a mission file [SI]: ``low`` to ``high`` (None: no
+    bound but the magnitude limit of every quantity), ``low`` itself allowed when
+    ``low_inclusive``."""
+
+    low: float | None = None
+    high: float | None = None
+    low_inclusive: bool = True
+
+    def bounds(self) -> dict[str, Any]:
+        """The keyword arguments of the loader's quantity check."""
+        return {"low": self.low, "high": self.high, "low_inclusive": self.low_inclusive}
+
+    def refuses(self, values: npt.NDArray[np.float64]) -> npt.NDArray[np.bool_]:
+        """Which values the loader would refuse (non-finite and too large included)."""
+        bad = ~np.isfinite(values) | (np.abs(values) > MAX_MAGNITUDE)
+        with np.errstate(invalid="ignore"):
+            if self.low is not None:
+                bad |= values < self.low if self.low_inclusive else values <= self.low
+            if self.high is not None:
+                bad |= values > self.high
+        return bad
+
+    def describe(self, unit: str, scale: float = 1.0) -> str:
+        """The range in words, e.g. "from -500 to 10000 m"."""
+        unit = f" {unit}" if unit and unit != "dimensionless" else ""
+        if self.low is not None and self.high is not None:
+            return f"from {self.low * scale:g} to {self.high * scale:g}{unit}"
+        if self.low is not None:
+            word = "at least" if self.low_inclusive else "above"
+            return f"{word} {self.low * scale:g}{unit}"
+        return f"at most {(self.high or 0.0) * scale:g}{unit}"
+
+
+_DEGREE = math.pi / 180.0
+
+# the ranges of the fields a dispersion study writes straight into the flight core: the
+# loader checks a value in the file against the same entry, and a study checks every
+# drawn value against it, so a sample is flown only if the file could hold it
+RANGES: dict[str, Range] = {
+    "vehicle.payload": Range(0.0, None),
+    "vehicle.drag_scale": Range(*LIMITS["drag_scale"]),
+    "launch.site_altitude": Range(-500.0, 1e4),
+    "launch.rail_length": Range(0.0, 1e3),
+    "launch.elevation": Range(0.0, 90.0 * _DEGREE, low_inclusive=False),
+    "launch.wind_speed": Range(-200.0, 200.0),
+    "flight.pitch_kick_angle": Range(0.0, 90.0 * _DEGREE),
+    "flight.pitch_kick_speed": Range(0.0, 1e4),
+    "stage.inert_mass": Range(0.0, None, low_inclusive=False),
+    "stage.propellant_mass": Range(0.0, None, low_inclusive=False),
+    "stage.separation_delay": Range(0.0, 3600.0),
+    "stage.ignition_delay": Range(0.0, 1e5),
+    "motor.impulse_scale": Range(LIMITS["impulse_scale"][0], LIMITS["impulse_scale"][1], False),
+    "motor.burn_time_scale": Range(
+        LIMITS["burn_time_scale"][0], LIMITS["burn_time_scale"][1], False
+    ),
+    "engine.isp_vacuum": Range(0.0, 1e4, low_inclusive=False),
+    "engine.thrust_vacuum": Range(0.0, None, low_inclusive=False),
+}
+
+
+def range_of(ref: FieldRef) -> Range | None:
+    """The range of a field in :data:`RANGES` (by its table kind and name), if listed."""
+    path = ref.path
+    if path and path[0] == "stage":
+        kind = "stage" if len(path) == 3 else str(path[2])
+        return RANGES.get(f"{kind}.{path[-1]}")
+    return RANGES.get(f"{path[0]}.{path[-1]}") if path else None
+
 
 # values a field takes when the file does not give it (a cluster of one, no scaling...)
 _DEFAULTS: dict[str | int, float | None] = {

@@ -306,15 +306,24 @@ class _Stack:
 
 def _fly_legs(mission: Mission, stack: _Stack) -> list[LegLedger]:
     names = [stage.name for stage in mission.vehicle.stages]
+    index_of = {name: i for i, name in enumerate(names)}
+    legs = mission.legs
+    # later legs flown by this leg's last stage alone draw on the same propellant: the
+    # need of each run of consecutive one-stage legs on the same stage, summed from the
+    # end (one pass, so a file of many legs costs time in proportion to its legs)
+    alone = [leg.stages[0] if len(leg.stages) == 1 else None for leg in legs]
+    run_need = [0.0] * (len(legs) + 1)
+    for j in range(len(legs) - 1, -1, -1):
+        if alone[j] is None:
+            continue
+        run_need[j] = legs[j].required_delta_v + legs[j].reserve
+        if j + 1 < len(legs) and alone[j + 1] == alone[j]:
+            run_need[j] += run_need[j + 1]
     rows = []
-    for position, leg in enumerate(mission.legs):
-        first, last = names.index(leg.stages[0]), names.index(leg.stages[-1])
-        # later legs flown by this leg's last stage alone draw on the same propellant
-        later_need = 0.0
-        for other in mission.legs[position + 1 :]:
-            if other.stages != (names[last],):
-                break
-            later_need += other.required_delta_v + other.reserve
+    for position, leg in enumerate(legs):
+        first, last = index_of[leg.stages[0]], index_of[leg.stages[-1]]
+        following = alone[position + 1] if position + 1 < len(legs) else None
+        later_need = run_need[position + 1] if following == names[last] else 0.0
         need = leg.required_delta_v + leg.reserve
         available = stack.capability(first, last)
         delivered = used = 0.0

@@ -21,8 +21,9 @@ from typing import Any
 
 from propulsion import catalog
 from propulsion.errors import DataFileError, MissionError, MissionFileNotFoundError
-from propulsion.fields import LIMITS
+from propulsion.fields import LIMITS, RANGES
 from propulsion.targets import TARGET_KINDS, Requirement, required_delta_v
+from propulsion.text import printable
 from propulsion.units import UnitParseError, parse_quantity
 from propulsion.vehicle import DragCurve, Engine, Motor, Stage, Vehicle
 
@@ -239,13 +240,56 @@ def load_mission(path: str | Path) -> Mission:
         Any problem with the content; the message names file, field, line and expectation.
     """
     path = Path(path)
-    if not path.is_file():
-        raise MissionFileNotFoundError(path)
+    expected = "a TOML mission file"
     try:
-        text = path.read_text(encoding="utf-8")
+        info = path.stat()
+    except FileNotFoundError:
+        raise MissionFileNotFoundError(path) from None
+    except OSError as exc:  # a symbolic link loop, a name too long, no permission
+        reason = exc.strerror or type(exc).__name__
+        raise MissionError(path, "", f"cannot open it ({reason})", expected) from None
+    kind = _file_kind(info.st_mode)
+    if kind:
+        raise MissionError(path, "", f"is {kind}, not a file", expected)
+    if info.st_size > MAX_MISSION_BYTES:
+        raise MissionError(
+            path,
+            "",
+            f"is {info.st_size / 1e6:,.0f} MB, too large for a mission file",
+            f"at most {MAX_MISSION_BYTES / 1e6:.0f} MB",
+        )
+    try:
+        raw = path.read_bytes()
+    except OSError as exc:
+        reason = exc.strerror or type(exc).__name__
+        raise MissionError(path, "", f"cannot read it ({reason})", expected) from None
+    try:
+        # "utf-8-sig": a byte-order mark at the start, as some editors write, is accepted
+        text = raw.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
         raise MissionError(path, "", "the file is not UTF-8 text", "a TOML text file") from exc
     return parse_mission(text, source=str(path), base_dir=path.parent)
+
+
+MAX_MISSION_BYTES = 64_000_000
+"""The largest mission file read: 64 MB (a mission of 100,000 legs is about 6 MB)."""
+
+
+def _file_kind(mode: int) -> str:
+    """What a path is when it is not a regular file ("" when it is one)."""
+    import stat
+
+    if stat.S_ISREG(mode):
+        return ""
+    if stat.S_ISDIR(mode):
+        return "a folder"
+    if stat.S_ISFIFO(mode):
+        return "a named pipe"
+    if stat.S_ISCHR(mode) or stat.S_ISBLK(mode):
+        return "a device"
+    if stat.S_ISSOCK(mode):
+        return "a socket"
+    return "not a regular file"
 
 
 def parse_mission(
@@ -265,18 +309,29 @@ def parse_mission(
         Folder that relative file names are read from; the working folder when None.
     """
     text = document if isinstance(document, str) else ""
-    if isinstance(document, str):
-        try:
-            data = tomllib.loads(document)
-        except tomllib.TOMLDecodeError as exc:
-            line = _toml_error_line(str(exc))
-            raise MissionError(source, "", f"malformed TOML ({exc})", "valid TOML", line) from exc
-    elif isinstance(document, Mapping):
-        data = copy.deepcopy(dict(document))
-    else:
-        raise MissionError(source, "", "not a mission document", "TOML text or a dict")
-    base = Path(base_dir) if base_dir is not None else Path.cwd()
-    return _Builder(source, text, base).build(data)
+    too_deep = MissionError(
+        source,
+        "",
+        "tables or lists are nested too deeply",
+        "a mission file as described in the README (a few levels of nesting)",
+    )
+    try:
+        if isinstance(document, str):
+            try:
+                data = tomllib.loads(document)
+            except tomllib.TOMLDecodeError as exc:
+                line = _toml_error_line(str(exc))
+                raise MissionError(
+                    source, "", f"malformed TOML ({exc})", "valid TOML", line
+                ) from exc
+        elif isinstance(document, Mapping):
+            data = copy.deepcopy(dict(document))
+        else:
+            raise MissionError(source, "", "not a mission document", "TOML text or a dict")
+        base = Path(base_dir) if base_dir is not None else Path.cwd()
+        return _Builder(source, text, base).build(data)
+    except RecursionError:
+        raise too_deep from None
 
 
 def _toml_error_line(message: str) -> int | None:
@@ -328,15 +383,20 @@ class _Table:
     def has(self, key: str) -> bool:
         return key in self.data
 
-    def string(self, key: str, default: str | None = None, required: bool = False) -> str:
+    def string(
+        self, key: str, default: str | None = None, required: bool = False, path: bool = False
+    ) -> str:
+        """A text field, stripped and cleaned of control codes (:func:`printable`), so none
+        reaches a table, picture, report or export; a ``path`` is kept as written (the
+        data-file reader refuses one that holds control codes)."""
         if key not in self.data:
             if required or default is None:
                 raise self.error(key, "is missing", "text")
             return default
         value = self.data[key]
-        if not isinstance(value, str) or not value.strip():
+        if not isinstance(value, str) or not printable(value).strip():
             raise self.error(key, f"is {_kind(value)}", "non-empty text")
-        return value.strip()
+        return value.strip() if path else printable(value).strip()
 
     def strings(self, key: str) -> list[str]:
         if key not in self.data:
@@ -350,7 +410,7 @@ class _Table:
             or not all(isinstance(item, str) and item for item in value)
         ):
             raise self.error(key, f"is {_kind(value)}", 'a list of names, for example ["booster"]')
-        return list(value)
+        return [printable(item).strip() for item in value]  # as string() cleans the names
 
     def integer(self, key: str, default: int, low: int, high: int) -> int:
         if key not in self.data:
@@ -408,7 +468,8 @@ class _Table:
         too_high = high is not None and number > high
         if too_low or too_high:
             expected = expected or _range_text(dimension, low, high, low_inclusive)
-            raise self.error(key, f"{value!r} is out of range", expected)
+            problem = "too large" if too_high else "too small"
+            raise self.error(key, f"{value!r} is {problem}", expected)
         return number
 
     def table(self, key: str, allowed: set[str]) -> _Table | None:
@@ -591,17 +652,18 @@ class _Builder:
         vehicle_table = top.table("vehicle", _VEHICLE)
         if vehicle_table is None:
             raise top.error("vehicle", "is missing", "a [vehicle] table with the payload mass")
-        payload = vehicle_table.quantity("payload", "mass", required=True, low=0.0)
+        payload = vehicle_table.quantity(
+            "payload", "mass", required=True, **RANGES["vehicle.payload"].bounds()
+        )
         diameter = vehicle_table.quantity("diameter", "length", low=0.0, low_inclusive=False)
-        drag_name = vehicle_table.string("drag_curve", default="") or None
+        drag_name = vehicle_table.string("drag_curve", default="", path=True) or None
         drag = self._drag_curve(vehicle_table, "drag_curve", drag_name)
         stages = self._stages(top, margins, diameter, drag)
         drag_scale = vehicle_table.quantity(
             "drag_scale",
             "dimensionless",
             default=1.0,
-            low=LIMITS["drag_scale"][0],
-            high=LIMITS["drag_scale"][1],
+            **RANGES["vehicle.drag_scale"].bounds(),
             expected="a factor from 0 to 10 on every drag coefficient",
         )
         vehicle = Vehicle(
@@ -634,21 +696,23 @@ class _Builder:
         if table is None:
             return LaunchSite()
         degree = math.pi / 180
-        altitude = table.quantity("site_altitude", "length", default=0.0, low=-500.0, high=1e4)
+        altitude = table.quantity(
+            "site_altitude", "length", default=0.0, **RANGES["launch.site_altitude"].bounds()
+        )
         latitude = table.quantity("latitude", "angle", low=-90 * degree, high=90 * degree)
         azimuth = table.quantity("azimuth", "angle", low=0.0, high=360 * degree)
-        rail = table.quantity("rail_length", "length", low=0.0, high=1e3)
+        rail = table.quantity("rail_length", "length", **RANGES["launch.rail_length"].bounds())
         elevation = table.quantity(
             "elevation",
             "angle",
             default=math.pi / 2,
-            low=0.0,
-            low_inclusive=False,
-            high=90 * degree,
+            **RANGES["launch.elevation"].bounds(),
             expected="an angle above the horizon, from 0 deg to 90 deg",
         )
         wind_altitude, wind_speed, wind_from = self._wind(table)
-        wind_offset = table.quantity("wind_speed", "speed", default=0.0, low=-200.0, high=200.0)
+        wind_offset = table.quantity(
+            "wind_speed", "speed", default=0.0, **RANGES["launch.wind_speed"].bounds()
+        )
         return LaunchSite(
             wind_offset=float(wind_offset or 0.0),
             wind_altitude=wind_altitude,
@@ -803,7 +867,6 @@ class _Builder:
                 "give pitch_kick_time or pitch_kick_speed, not both",
                 "one of them",
             )
-        degree = math.pi / 180
         has_angle = table.has("pitch_kick_angle")
         has_when = table.has("pitch_kick_time") or table.has("pitch_kick_speed")
         if has_angle != has_when:
@@ -822,11 +885,18 @@ class _Builder:
                 or 7200.0
             ),
             pitch_kick_angle=float(
-                table.quantity("pitch_kick_angle", "angle", default=0.0, low=0.0, high=90 * degree)
+                table.quantity(
+                    "pitch_kick_angle",
+                    "angle",
+                    default=0.0,
+                    **RANGES["flight.pitch_kick_angle"].bounds(),
+                )
                 or 0.0
             ),
             pitch_kick_time=table.quantity("pitch_kick_time", "time", low=0.0, high=1e5),
-            pitch_kick_speed=table.quantity("pitch_kick_speed", "speed", low=0.0, high=1e4),
+            pitch_kick_speed=table.quantity(
+                "pitch_kick_speed", "speed", **RANGES["flight.pitch_kick_speed"].bounds()
+            ),
             pitch_kick_duration=float(
                 table.quantity(
                     "pitch_kick_duration",
@@ -943,7 +1013,10 @@ class _Builder:
         if name is None:
             return None
         try:
+            # a path must stay in the mission's folder (catalog.user_data_file)
             return catalog.load_drag_curve(name, self.base_dir)
+        except catalog.DataPathError as exc:
+            raise table.error(key, exc.problem, exc.expected) from None
         except MissionFileNotFoundError as exc:
             raise table.error(key, str(exc), "a shipped drag curve name or a CSV file") from exc
 
@@ -1011,8 +1084,7 @@ class _Builder:
                     "propellant_mass",
                     "mass",
                     required=True,
-                    low=0.0,
-                    low_inclusive=False,
+                    **RANGES["stage.propellant_mass"].bounds(),
                     expected="a mass above zero",
                 )
                 or 0.0
@@ -1027,7 +1099,10 @@ class _Builder:
         if table.has("inert_mass"):
             structure = float(
                 table.quantity(
-                    "inert_mass", "mass", low=0.0, low_inclusive=False, expected="a mass above zero"
+                    "inert_mass",
+                    "mass",
+                    **RANGES["stage.inert_mass"].bounds(),
+                    expected="a mass above zero",
                 )
                 or 0.0
             )
@@ -1084,7 +1159,7 @@ class _Builder:
             low_inclusive=False,
             expected="a length above zero",
         )
-        drag_name = table.string("drag_curve", default="") or None
+        drag_name = table.string("drag_curve", default="", path=True) or None
         stage_drag = self._drag_curve(table, "drag_curve", drag_name) if drag_name else drag
         tank = table.quantity(
             "tank_fraction",
@@ -1093,8 +1168,12 @@ class _Builder:
             high=LIMITS["tank_fraction"][1],
             expected="a fraction from 0 to 1",
         )
-        separation = table.quantity("separation_delay", "time", default=0.0, low=0.0, high=3600)
-        ignition = table.quantity("ignition_delay", "time", default=0.0, low=0.0, high=1e5)
+        separation = table.quantity(
+            "separation_delay", "time", default=0.0, **RANGES["stage.separation_delay"].bounds()
+        )
+        ignition = table.quantity(
+            "ignition_delay", "time", default=0.0, **RANGES["stage.ignition_delay"].bounds()
+        )
         return Stage(
             name=name,
             inert_mass=inert,
@@ -1159,11 +1238,13 @@ class _Builder:
                         source=motor.source,
                     )
             else:
-                path = Path(table.string("file"))
-                if not path.is_absolute():
-                    path = self.base_dir / path
-                if not catalog.is_file(path):
-                    raise table.error("file", f"thrust curve not found: {path}", "an existing CSV")
+                # a path must stay in the mission's folder (catalog.user_data_file)
+                try:
+                    path = catalog.user_data_file(
+                        table.string("file", path=True), self.base_dir, "thrust curve"
+                    )
+                except catalog.DataPathError as exc:
+                    raise table.error("file", exc.problem, exc.expected) from None
                 motor = catalog.read_thrust_curve(path, propellant, case, family)
         except DataFileError:
             raise
@@ -1172,17 +1253,13 @@ class _Builder:
         impulse_scale = table.quantity(
             "impulse_scale",
             "dimensionless",
-            low=LIMITS["impulse_scale"][0],
-            low_inclusive=False,
-            high=LIMITS["impulse_scale"][1],
+            **RANGES["motor.impulse_scale"].bounds(),
             expected="a factor above 0 on the total impulse",
         )
         time_scale = table.quantity(
             "burn_time_scale",
             "dimensionless",
-            low=LIMITS["burn_time_scale"][0],
-            low_inclusive=False,
-            high=LIMITS["burn_time_scale"][1],
+            **RANGES["motor.burn_time_scale"].bounds(),
             expected="a factor above 0 on the burn time",
         )
         if impulse_scale is not None or time_scale is not None:
@@ -1226,10 +1303,8 @@ class _Builder:
                 "isp_vacuum",
                 "time",
                 required=True,
-                high=1e4,
                 expected="a specific impulse in s above zero",
-                low=0.0,
-                low_inclusive=False,
+                **RANGES["engine.isp_vacuum"].bounds(),
             )
             or 0.0
         )
@@ -1258,7 +1333,8 @@ class _Builder:
             )
         if table.has("thrust_vacuum"):
             thrust_vacuum = float(
-                table.quantity("thrust_vacuum", "force", low=0.0, low_inclusive=False) or 0.0
+                table.quantity("thrust_vacuum", "force", **RANGES["engine.thrust_vacuum"].bounds())
+                or 0.0
             )
             if exit_area is None:
                 mass_flow = thrust_vacuum / (isp_vacuum * STANDARD_GRAVITY)
@@ -1354,7 +1430,7 @@ class _Builder:
         for key, dimension in {**required, **optional}.items():
             low: float = 0.0
             inclusive = key in {"loss_allowance", "delta_v"}
-            expected = f"a {dimension} above zero"
+            expected = ""  # the range in words, from the bounds below
             high: float | None = 1e9
             if dimension == "angle":
                 high = math.pi

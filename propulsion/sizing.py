@@ -338,6 +338,13 @@ def size(
     """
     if not mission.legs:
         raise SizingError("the mission has no legs, so there is no target to size for")
+    if tank_fraction is not None:
+        low_tank, high_tank = fields.LIMITS["tank_fraction"]
+        if not low_tank <= tank_fraction <= high_tank:
+            raise SizingError(
+                f"a tank fraction of {tank_fraction:.4g} is out of range",
+                f"from {low_tank:.0%} to {high_tank:.0%}, as the stage field tank_fraction",
+            )
     ref = fields.resolve(mission.document, vary)
     kind = mission.legs[0].target
     if kind not in _TARGET_FIELD:

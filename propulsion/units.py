@@ -14,7 +14,7 @@ from __future__ import annotations
 import math
 import re
 from dataclasses import dataclass
-from functools import cache
+from functools import cache, lru_cache
 from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:
@@ -37,14 +37,16 @@ MAX_TEXT_LENGTH = 80
 MAX_MAGNITUDE = 1e15
 """Largest absolute SI value accepted for any field; larger is refused as absurd."""
 
-_NUMBER = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d{1,3})?"
+# ASCII digits only: "\d" in a str pattern also matches Arabic-Indic, full-width and other
+# digits, which float() reads as numbers a reader of the file may not see as such
+_NUMBER = r"[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]{1,3})?"
 _QUANTITY_RE = re.compile(rf"^\s*(?P<number>{_NUMBER})\s*(?P<unit>.*?)\s*$")
-_UNIT_CHARS_RE = re.compile(r"^[A-Za-z_µμ°%Ω\s*/^().\-\d]*$")
-_EXPONENT_RE = re.compile(r"(\*\*|\^)\s*\(?\s*(-?\d+(?:\.\d+)?)\s*\)?")
+_UNIT_CHARS_RE = re.compile(r"^[A-Za-z_µμ°%Ω\s*/^().\-0-9]*$")
+_EXPONENT_RE = re.compile(r"(\*\*|\^)\s*\(?\s*(-?[0-9]+(?:\.[0-9]+)?)\s*\)?")
 _POWER_RE = re.compile(r"\*\*|\^")
 # after a power operator: one plain number, optionally in parentheses, and no further power
 _OPERAND_RE = re.compile(
-    r"\s*(\(\s*-?\d{1,2}(\.\d+)?\s*\)|-?\d{1,2}(\.\d+)?)(?!\s*(\*\*|\^|\d|\.))"
+    r"\s*(\(\s*-?[0-9]{1,2}(\.[0-9]+)?\s*\)|-?[0-9]{1,2}(\.[0-9]+)?)(?!\s*(\*\*|\^|[0-9]|\.))"
 )
 
 # Dimension names used throughout the package, with the SI unit that the core works in.
@@ -137,36 +139,64 @@ def parse_quantity(text: str, dimension: str) -> float:
         if dimension == "dimensionless":
             return _bounded(text, magnitude)
         raise UnitParseError(text, f"a bare number has no unit; {dimension} needs one")
+    try:
+        scale, offset = _conversion(unit_text, dimension)
+    except _UnitError as problem:
+        raise UnitParseError(text, problem.reason) from None
+    return _bounded(text, scale * magnitude + offset)
+
+
+class _UnitError(Exception):
+    """Why a unit expression cannot be used (the caller adds the quantity's text)."""
+
+    def __init__(self, reason: str) -> None:
+        super().__init__(reason)
+        self.reason = reason
+
+
+@lru_cache(maxsize=4096)
+def _conversion(unit_text: str, dimension: str) -> tuple[float, float]:
+    """(scale, offset) that take a magnitude in ``unit_text`` to the SI unit of
+    ``dimension``: value = scale × magnitude + offset (every pint conversion is affine).
+
+    Cached: a table of a hundred thousand rows in the same unit asks pint once, not a
+    hundred thousand times.
+    """
     if not _UNIT_CHARS_RE.match(unit_text):
-        raise UnitParseError(text, f"{unit_text!r} is not a unit expression")
+        raise _UnitError(f"{unit_text!r} is not a unit expression")
     for _, exponent in _EXPONENT_RE.findall(unit_text):
         if abs(float(exponent)) > 4:
-            raise UnitParseError(text, f"exponent {exponent} is out of range (at most 4)")
+            raise _UnitError(f"exponent {exponent} is out of range (at most 4)")
     for power in _POWER_RE.finditer(unit_text):
         if not _OPERAND_RE.match(unit_text, power.end()):
-            raise UnitParseError(text, "an exponent must be one small number, like m^2")
+            raise _UnitError("an exponent must be one small number, like m^2")
     import pint
 
     try:
         units = registry().parse_units(unit_text)
     except (pint.errors.UndefinedUnitError, pint.errors.DefinitionSyntaxError) as exc:
-        raise UnitParseError(text, f"unknown unit {unit_text!r}") from exc
+        raise _UnitError(f"unknown unit {unit_text!r}") from exc
     except Exception as exc:  # pint raises assorted errors on odd syntax
-        raise UnitParseError(text, f"{unit_text!r} is not a unit expression") from exc
-    quantity = registry().Quantity(magnitude, units)
+        raise _UnitError(f"{unit_text!r} is not a unit expression") from exc
+    target = _si_unit(dimension)
     try:
-        value = float(quantity.to(_si_unit(dimension)).magnitude)
+        zero = float(registry().Quantity(0.0, units).to(target).magnitude)
+        one = float(registry().Quantity(1.0, units).to(target).magnitude)
     except pint.errors.DimensionalityError as exc:
-        got = _dimension_name(quantity)
-        raise UnitParseError(text, f"expected {dimension}, got {got}") from exc
-    if dimension == "angle" and quantity.unitless:
-        raise UnitParseError(text, "an angle needs its unit, like '85 deg'")
-    return _bounded(text, value)
+        got = _dimension_name(registry().Quantity(1.0, units))
+        raise _UnitError(f"expected {dimension}, got {got}") from exc
+    if dimension == "angle" and registry().Quantity(1.0, units).unitless:
+        raise _UnitError("an angle needs its unit, like '85 deg'")
+    return one - zero, zero
 
 
 def _bounded(text: str, value: float) -> float:
-    if not math.isfinite(value) or abs(value) > MAX_MAGNITUDE:
-        raise UnitParseError(text, "the value is not finite or is absurdly large")
+    if math.isnan(value):
+        raise UnitParseError(text, "the value is not finite")
+    if abs(value) > MAX_MAGNITUDE:  # an infinity from converting a finite number too
+        raise UnitParseError(
+            text, f"the value is too large (more than {MAX_MAGNITUDE:g} in SI units)"
+        )
     return value
 
 

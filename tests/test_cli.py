@@ -80,8 +80,10 @@ def test_bad_input_exit_code_2_without_traceback(tmp_path: Path) -> None:
     assert "bad.toml" in result.stderr and "vehicle.payload" in result.stderr
     assert "line 2" in result.stderr
     assert "Traceback" not in result.output
+    # --debug shows the traceback, and bad input still exits with 2
     debug = runner.invoke(app, ["--debug", "budget", str(mission)])
-    assert debug.exit_code != 0 and debug.exception is not None
+    assert debug.exit_code == 2
+    assert "Traceback" in debug.stderr and "MissionError" in debug.stderr
 
 
 def test_missing_file_exit_code_2(tmp_path: Path) -> None:

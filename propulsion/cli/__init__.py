@@ -8,7 +8,10 @@ from __future__ import annotations
 
 import contextlib
 import os
+import signal
 import sys
+import warnings
+from typing import Any
 
 import typer
 
@@ -96,8 +99,14 @@ def main() -> None:
     """Run the command line; always ends with ``SystemExit`` and the exit code.
 
     Exit codes: 0 success, 1 the mission falls short, 2 bad input, 3 an internal error
-    (a bug: the message asks for a report; ``--debug`` shows the traceback).
+    (a bug: the message asks for a report; ``--debug`` shows the traceback); 130 after
+    Ctrl-C, 128 + N after the termination signal N (SIGTERM 143, SIGHUP 129).
     """
+    previous = _stop_on_signals()
+    if "--debug" not in sys.argv[1:]:
+        # a user sees messages, never a library's raw warning with its source line (numpy
+        # overflow on an absurd draw, say); --debug shows them
+        warnings.simplefilter("ignore")
     try:
         code = app(standalone_mode=False)
     except typer.Exit as exc:
@@ -110,13 +119,44 @@ def main() -> None:
     except Exception as exc:
         if state.debug:
             raise
+        from propulsion.report.safe_text import printable  # the message may quote input
+
         sys.stderr.write(
-            f"internal error: {type(exc).__name__}: {exc}\n"
+            f"internal error: {type(exc).__name__}: {printable(str(exc))}\n"
             "This is a bug in propulsion, not in your input. Run again with --debug before "
             "the command for the traceback, and report it.\n"
         )
         raise SystemExit(3) from None
+    finally:
+        for number, handler in previous.items():
+            signal.signal(number, handler)
     raise SystemExit(code if isinstance(code, int) else 0)
+
+
+def _stop_on_signals() -> dict[int, Any]:
+    """Make SIGTERM and SIGHUP end a command the way Ctrl-C does: ``SystemExit`` is
+    raised in the main thread, so every cleanup path runs (partial output files are
+    removed, pools and clients shut). A second signal while cleaning up ends the process
+    at once. A signal the caller ignores (``nohup``) stays ignored. Returns the handlers
+    replaced, to put back."""
+    import threading
+
+    if threading.current_thread() is not threading.main_thread():
+        return {}
+    numbers = [getattr(signal, name) for name in ("SIGTERM", "SIGHUP") if hasattr(signal, name)]
+
+    def stop(number: int, frame: object) -> None:
+        for each in numbers:
+            signal.signal(each, signal.SIG_DFL)
+        raise SystemExit(128 + number)
+
+    previous = {}
+    for number in numbers:
+        handler = signal.getsignal(number)
+        if handler is not signal.SIG_IGN:
+            previous[number] = handler
+            signal.signal(number, stop)
+    return previous
 
 
 def click_exceptions() -> type[Exception]:

@@ -39,20 +39,20 @@ def report_command(
     is written whole or not at all. Exit code 0 when it was written (whatever the
     verdict), 2 on bad input or when the output file exists without --force.
     """
-    from propulsion.errors import OutputExistsError
     from propulsion.mission import load_mission
-    from propulsion.report.files import OutputError, write_atomic
+    from propulsion.report.files import all_or_nothing, check_output, write_atomic
     from propulsion.report.html import build_report
 
     console = stdout()
-    with guard():
+    # the report is moved into place when the block ends without an error
+    with guard(), all_or_nothing(mission_file) as outputs:
+        from propulsion.studies.scatter import check_study
+
+        check_study(dispersion_samples, seed)
         mission = load_mission(mission_file)
+        outputs.protect(mission)
         # refuse before the work, not after it (write_atomic checks again when writing)
-        if output.exists() and not force:
-            raise OutputExistsError(output)
-        folder = output.parent if str(output.parent) else Path(".")
-        if not folder.is_dir():
-            raise OutputError(str(output), f"the folder {folder} does not exist")
+        check_output(output, force, suffixes=(".html", ".htm"))
         with console.status("Preparing the report…") as status:
             html = build_report(
                 mission,

@@ -38,7 +38,8 @@ def scatter_command(
     cluster: str | None = typer.Option(
         None,
         "--cluster",
-        help="A dask.distributed scheduler, tcp://HOST:PORT (or set PROPULSION_DASK_SCHEDULER).",
+        help="A dask.distributed scheduler, tcp://HOST:PORT or tls://HOST:PORT (or set "
+        "PROPULSION_DASK_SCHEDULER). Trusted like code: its results are unpickled here.",
     ),
     samples_file: Path | None = typer.Option(
         None, "--samples", help="Write every sample's inputs and outputs to this CSV (streamed)."
@@ -70,11 +71,24 @@ def scatter_command(
     from rich.progress import BarColumn, Progress, TextColumn, TimeRemainingColumn
 
     from propulsion.mission import load_mission
-    from propulsion.report.files import StreamedCsv
+    from propulsion.report.files import StreamedCsv, all_or_nothing
     from propulsion.studies.scatter import METRICS, scatter
 
-    with guard():
+    with guard():  # the scheduler's address, checked before anything else
+        from propulsion.studies.executors import scheduler_address
+
+        scheduler = scheduler_address(cluster, "--cluster")
+        if scheduler is not None and scheduler.warning:
+            stderr().print(
+                f"warning: {scheduler.warning}.", markup=False, highlight=False, soft_wrap=True
+            )
+    # the outputs are written together when every one of them is ready, or not at all
+    with guard(), all_or_nothing(mission_file) as outputs:
+        from propulsion.studies.scatter import check_study
+
+        check_study(samples, seed, workers)
         mission = load_mission(mission_file)
+        outputs.protect(mission)
         probability = _probability(reserve) if reserve is not None else None
         if plot is not None:
             from propulsion.report.plots import check_plot_path

@@ -19,6 +19,7 @@ import numpy.typing as npt
 from propulsion.atmosphere import layer_table
 from propulsion.constants import EARTH_EQUATORIAL_RADIUS, EARTH_MU, EARTH_ROTATION_RATE
 from propulsion.flight import layout
+from propulsion.simplify import simplify_table
 
 if TYPE_CHECKING:
     from propulsion.mission import Mission
@@ -27,6 +28,21 @@ __all__ = ["DEFAULT_HOLD_SPEED", "FlightCore", "build_core"]
 
 FloatArray = npt.NDArray[np.float64]
 IntArray = npt.NDArray[np.int64]
+
+TABLE_LIMIT = 500
+"""A table (thrust curve, drag curve, wind profile) of more than this many points is
+simplified before flight (:mod:`propulsion.simplify`): the core ends a step at every point,
+so a 10 kHz firing log would otherwise cost a step per sample."""
+CURVE_POINTS = 1000
+"""At most this many points of a simplified thrust curve (the tolerance grows for a noisy
+curve until it fits)."""
+THRUST_TOLERANCE = 0.005
+"""A simplified thrust curve stays within this fraction of its peak thrust of every point
+of the original (then its total impulse is restored exactly)."""
+DRAG_TOLERANCE = 0.002
+"""A simplified drag curve stays within this fraction of its largest drag coefficient."""
+WIND_TOLERANCE = 0.05
+"""A simplified wind profile stays within this many m/s of every row, in each component."""
 
 DEFAULT_HOLD_SPEED = 10.0
 """Air speed [m/s] below which the thrust holds its direction instead of following the
@@ -151,6 +167,8 @@ class FlightCore:
     guidance: str = "gravity_turn"
     stop_at_ground: bool = False
     airborne: bool = False
+    notes: tuple[str, ...] = ()
+    """What was done to the mission's tables before flight (long tables simplified)."""
 
     @property
     def stages(self) -> int:
@@ -334,11 +352,13 @@ def build_core(mission: Mission, stages: int | None = None, n: int = 1) -> Fligh
     curve_time, curve_thrust, curve_impulse = [], [], []
     thrust_vacuum, exit_area, mass_flow = [], [], []
     drag_mach, drag_cd, area = [], [], []
+    notes: list[str] = []
     for stage in flown:
         prop = stage.propulsion
         if isinstance(prop, Motor):
-            curve_time.append(np.asarray(prop.time, dtype=float))
-            curve_thrust.append(stage.count * np.asarray(prop.thrust, dtype=float))
+            time, thrust = _flight_curve(stage.name, prop.time, prop.thrust, notes)
+            curve_time.append(time)
+            curve_thrust.append(stage.count * thrust)
             curve_impulse.append(stage.count * prop.total_impulse)
             thrust_vacuum.append(0.0)
             exit_area.append(0.0)
@@ -352,8 +372,22 @@ def build_core(mission: Mission, stages: int | None = None, n: int = 1) -> Fligh
             exit_area.append(stage.count * prop.exit_area)
             mass_flow.append(stage.count * prop.mass_flow)
         if stage.drag_curve is not None and stage.diameter is not None:
-            drag_mach.append(np.asarray(stage.drag_curve.mach, dtype=float))
-            drag_cd.append(np.asarray(stage.drag_curve.drag_coefficient, dtype=float))
+            cd = np.asarray(stage.drag_curve.drag_coefficient, dtype=float)
+            table = simplify_table(
+                np.asarray(stage.drag_curve.mach, dtype=float),
+                cd,
+                DRAG_TOLERANCE * max(float(np.max(np.abs(cd))), 1e-12),
+                TABLE_LIMIT,
+                TABLE_LIMIT,
+            )
+            if table.simplified:
+                notes.append(
+                    f"the drag curve of {stage.name} ({table.original_points:,} points) is "
+                    f"flown as {table.x.size:,} points, within {table.tolerance:.3g} of its "
+                    "drag coefficient"
+                )
+            drag_mach.append(table.x)
+            drag_cd.append(table.y)
             area.append(math.pi * stage.diameter**2 / 4)
         else:
             drag_mach.append(np.array([0.0, 1.0]))
@@ -369,7 +403,19 @@ def build_core(mission: Mission, stages: int | None = None, n: int = 1) -> Fligh
     if mission.legs and mission.legs[0].target == "circular_orbit":
         radius = EARTH_EQUATORIAL_RADIUS + mission.legs[0].fields["altitude"]
         cutoff = -EARTH_MU / (2 * radius)
-    heights, east, north = launch.wind_components()
+    wind_heights, wind_east, wind_north = launch.wind_components()
+    profile = simplify_table(
+        np.asarray(wind_heights, dtype=float),
+        np.column_stack([wind_east, wind_north]) if len(wind_heights) else np.zeros((0, 2)),
+        WIND_TOLERANCE,
+        TABLE_LIMIT,
+        TABLE_LIMIT,
+    )
+    if profile.simplified:
+        notes.append(
+            f"the wind profile ({profile.original_points:,} rows) is flown as "
+            f"{profile.x.size:,} rows, within {profile.tolerance:.3g} m/s of every wind"
+        )
     return FlightCore(
         n=n,
         stage_names=tuple(stage.name for stage in flown),
@@ -413,11 +459,37 @@ def build_core(mission: Mission, stages: int | None = None, n: int = 1) -> Fligh
         thrust_vacuum=per_stage(thrust_vacuum),
         exit_area=per_stage(exit_area),
         mass_flow=per_stage(mass_flow),
-        wind_height=np.asarray(heights, dtype=float),
-        wind_east=np.asarray(east, dtype=float),
-        wind_north=np.asarray(north, dtype=float),
+        wind_height=profile.x,
+        wind_east=np.ascontiguousarray(profile.y[:, 0]),
+        wind_north=np.ascontiguousarray(profile.y[:, 1]),
         earth=settings.earth,
         guidance=settings.guidance,
         stop_at_ground=settings.stop_at == "ground",
         airborne=False,
+        notes=tuple(notes),
     )
+
+
+def _flight_curve(
+    name: str, time: FloatArray, thrust: FloatArray, notes: list[str]
+) -> tuple[FloatArray, FloatArray]:
+    """A motor's thrust curve as the core flies it: a curve of more than ``TABLE_LIMIT``
+    points thinned to within ``THRUST_TOLERANCE`` of its peak thrust (at most
+    ``CURVE_POINTS`` points) and scaled back to its total impulse exactly (trapezoid rule,
+    as the piecewise-linear curve is flown)."""
+    time = np.asarray(time, dtype=float)
+    thrust = np.asarray(thrust, dtype=float)
+    table = simplify_table(
+        time, thrust, THRUST_TOLERANCE * float(np.max(thrust)), TABLE_LIMIT, CURVE_POINTS
+    )
+    if not table.simplified:
+        return time, thrust
+    impulse = float(np.sum(0.5 * (thrust[1:] + thrust[:-1]) * np.diff(time)))
+    kept = float(np.sum(0.5 * (table.y[1:] + table.y[:-1]) * np.diff(table.x)))
+    scale = impulse / kept if kept > 0 else 1.0
+    notes.append(
+        f"the thrust curve of {name} ({table.original_points:,} points) is flown as "
+        f"{table.x.size:,} points, within {table.tolerance:.3g} N of every point, its total "
+        f"impulse kept (scaled by {scale:.6f})"
+    )
+    return table.x, table.y * scale

@@ -113,12 +113,28 @@ def findings_view(findings: Sequence[Finding]) -> RenderableType:
         return Text("No plausibility warnings.", style="dim")
     text = Text()
     text.append(f"Plausibility warnings ({len(findings)})\n", style="bold yellow")
-    for finding in findings:
+    most = 20
+    for finding in findings[:most]:
         text.append("! ", style="bold yellow")
         text.append(f"{finding.subject}: ", style="yellow")
         text.append(f"{finding.message}.\n")
         text.append(f"  rule: {finding.rule}; source: {finding.source}\n", style="dim")
+    if len(findings) > most:
+        text.append(f"… and {len(findings) - most:,} more (--json lists all)\n", style="dim")
     return text
+
+
+SHEET_COLUMNS = 5
+"""A sheet of more items than this (stages, legs, segments) shows the first and last few,
+with a column saying how many are left out (the JSON has them all): a terminal cannot show
+a thousand columns, and rendering them would take longer than the computation."""
+
+
+def _elide(count: int) -> list[int | None]:
+    """Which items a sheet shows: all, or the first three and the last with a gap."""
+    if count <= SHEET_COLUMNS:
+        return list(range(count))
+    return [0, 1, 2, None, count - 1]
 
 
 def _sheet(
@@ -128,15 +144,30 @@ def _sheet(
     emphasise: Iterable[str] = (),
 ) -> Table:
     """A table with one column per item (stage, leg) and one row per quantity."""
+    shown = _elide(len(names))
+    hidden = len(names) - sum(1 for i in shown if i is not None)
+    if hidden:
+        title += f" ({len(names):,} items; {hidden:,} not shown, --json lists all)"
     table = _table(title)
     table.add_column("")
     table.add_column("Unit", style="dim")
-    for name in names:
-        table.add_column(name, justify="right", overflow="fold")
+    for i in shown:
+        if i is None:
+            table.add_column(f"… {hidden:,} more", justify="center", style="dim")
+        else:
+            table.add_column(names[i], justify="right", overflow="fold")
     bold = set(emphasise)
     for label, unit, values in rows:
-        table.add_row(label, unit, *values, style="bold" if label in bold else None)
+        cells = ["…" if i is None else values[i] for i in shown]
+        table.add_row(label, unit, *cells, style="bold" if label in bold else None)
     return table
+
+
+def _first_lines(lines: Sequence[str], most: int = 12) -> str:
+    """Lines of notes, at most ``most`` of them with a count of the rest."""
+    if len(lines) <= most:
+        return "".join(lines)
+    return "".join(lines[:most]) + f"… and {len(lines) - most:,} more (--json lists all)\n"
 
 
 def budget_view(result: BudgetResult, units: DisplayUnits) -> RenderableType:
@@ -219,16 +250,19 @@ def budget_view(result: BudgetResult, units: DisplayUnits) -> RenderableType:
             )
         )
         notes = Text(style="dim")
+        lines = []
         for leg, mission_leg in zip(legs, result.mission.legs, strict=True):
             terms = " ".join(
                 f"{'+' if value >= 0 else '−'} {_q(abs(value), 'speed', units)} {speed} ({label})"
                 for label, value in mission_leg.requirement.terms
             ).lstrip("+ ")
-            notes.append(f"{leg.name}: required = {terms}\n")
+            lines.append(f"{leg.name}: required = {terms}\n")
+        notes.append(_first_lines(lines))
         margins = result.mission.margins
+        stages = result.mission.vehicle.stages
         residuals = ", ".join(
-            f"{stage.name} {stage.residual_fraction:.1%}" for stage in result.mission.vehicle.stages
-        )
+            f"{stage.name} {stage.residual_fraction:.1%}" for stage in stages[:SHEET_COLUMNS]
+        ) + (f" and {len(stages) - SHEET_COLUMNS:,} more" if len(stages) > SHEET_COLUMNS else "")
         notes.append(
             f"Mission reserve {_q(margins.reserve, 'speed', units)} {speed}; Δv of the "
             f"propellant left after the last leg {_q(result.leftover_delta_v, 'speed', units)} "
@@ -632,6 +666,8 @@ def sizing_view(result: SizingResult, units: DisplayUnits) -> RenderableType:
     solutions = (result.budget, result.flight)
     per = f"per {ref.si_unit or 'unit'}"
     target_unit_si = {"length": "m", "speed": "m/s"}.get(result.target_dimension, "")
+    if result.target_kind == "circular_orbit":
+        target_unit_si = "m/s"  # an orbit is sized on the delta-v left after the later legs
     if result.target_kind == "circular_orbit":
         flight_quantity = "m/s of delta-v margin"
     else:

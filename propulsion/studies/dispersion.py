@@ -22,6 +22,7 @@ import numpy.typing as npt
 from propulsion import ascent, fields, flight
 from propulsion.errors import MissionError, PropulsionError
 from propulsion.mission import Dispersion, Mission, parse_mission
+from propulsion.units import MAX_MAGNITUDE
 
 __all__ = ["BLOCK", "Sampler", "draw"]
 
@@ -183,7 +184,24 @@ class Sampler:
         for d, mapping in enumerate(self.mappings):
             if mapping is None:
                 continue
-            problem = _apply(core, mapping, values[d, rows], self.nominal[d])
+            drawn = values[d, rows]
+            # a drawn value is checked against the very range the file's value is checked
+            # against (fields.RANGES), so a sample flies only if the file could hold it
+            allowed = fields.range_of(self.refs[d])
+            bad = (
+                allowed.refuses(drawn)
+                if allowed is not None
+                else ~np.isfinite(drawn) | (np.abs(drawn) > MAX_MAGNITUDE)
+            )
+            if np.any(bad):
+                reason = _outside(self.refs[d], allowed)
+                for j in rows[bad & good]:
+                    reasons[j] = f"{self.dispersions[d].field}: {reason}"
+                good &= ~bad
+            with np.errstate(all="ignore"):  # refused samples may hold absurd values
+                problem = _apply(
+                    core, mapping, np.where(bad, self.nominal[d], drawn), self.nominal[d]
+                )
             if problem is not None:
                 bad, reason = problem
                 for j in rows[bad & good]:
@@ -192,6 +210,15 @@ class Sampler:
         valid = np.zeros(count, dtype=bool)
         valid[rows[good]] = True
         return core.take(np.flatnonzero(good)), valid, reasons
+
+
+def _outside(ref: fields.FieldRef, allowed: fields.Range | None) -> str:
+    """Why a drawn value is refused, in the words of the file's check."""
+    if allowed is None:
+        return "not a finite value of at most 1e15 in SI units"
+    if ref.dimension == "angle":
+        return f"outside the range a mission file allows ({allowed.describe('deg', 180 / math.pi)})"
+    return f"outside the range a mission file allows ({allowed.describe(ref.si_unit)})"
 
 
 def _apply(

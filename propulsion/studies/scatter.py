@@ -42,6 +42,13 @@ __all__ = [
 
 FloatArray = npt.NDArray[np.float64]
 RESERVOIR = 100_000
+MAX_SAMPLES = 100_000_000
+"""The largest study: 10^8 samples, about three hours on two cores (the memory stays flat
+whatever N, but a larger request is taken for a typing slip)."""
+WORKERS_PER_CORE = 4
+"""At most this many threads per core: more only adds memory and switching."""
+MAX_SEED = 2**63 - 1
+"""Seeds run from 0 to 2^63 - 1 (numpy's SeedSequence takes non-negative integers)."""
 STUDY_RTOL = 1e-7
 """Relative tolerance of the flights of a study: agreement with a tight reference of
 about 1e-7 (tests/test_flight_reference.py), far below any dispersion's spread."""
@@ -423,6 +430,26 @@ def summarise(
     )
 
 
+def check_study(samples: int, seed: int, workers: int | None = None) -> None:
+    """Refuse a study size, seed or thread count out of range (before anything is drawn)."""
+    from propulsion.errors import RequestError
+    from propulsion.flight.batch import available_threads
+
+    if not 1 <= samples <= MAX_SAMPLES:
+        raise RequestError(
+            f"{samples:,} samples is out of range",
+            f"from 1 to {MAX_SAMPLES:,} samples (about three hours on two cores)",
+        )
+    if not 0 <= seed <= MAX_SEED:
+        raise RequestError(f"the seed {seed} is out of range", f"a seed from 0 to {MAX_SEED}")
+    cores = available_threads()
+    if workers is not None and not 1 <= workers <= WORKERS_PER_CORE * cores:
+        raise RequestError(
+            f"{workers} threads on {cores} core(s) is out of range",
+            f"from 1 to {WORKERS_PER_CORE * cores} threads ({WORKERS_PER_CORE} per core)",
+        )
+
+
 def scatter(
     mission: Mission,
     samples: int,
@@ -473,6 +500,7 @@ def scatter(
 
     from propulsion.studies.executors import run_chunks
 
+    check_study(samples, seed, workers)
     if not mission.dispersions:
         from propulsion.errors import MissionError
 

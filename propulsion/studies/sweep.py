@@ -10,6 +10,7 @@ of :mod:`propulsion.studies.compare` with the swept values in front.
 from __future__ import annotations
 
 import itertools
+import math
 import re
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
@@ -129,11 +130,22 @@ def sweep(
 
     from propulsion.studies.compare import compare
 
-    grid = list(itertools.product(*(axis.values for axis in axes)))
-    if len(grid) > MAX_POINTS:
-        raise SweepError(
-            " ".join(a.ref.name for a in axes), f"{len(grid)} points", f"at most {MAX_POINTS}"
-        )
+    names = " ".join(a.ref.name for a in axes)
+    seen: dict[tuple[str | int, ...], str] = {}
+    for axis in axes:
+        if axis.ref.path in seen:
+            raise SweepError(
+                names,
+                f"the field {axis.ref.name} is given twice",
+                "each field in one --set only",
+            )
+        seen[axis.ref.path] = axis.ref.name
+    # the size of the grid from its axes, before any point is made (a product of three
+    # 1,000-point axes is 10^9 points: refused here, not after filling the memory)
+    size = math.prod(len(axis.values) for axis in axes)
+    if size > MAX_POINTS:
+        raise SweepError(names, f"{size:,} points", f"at most {MAX_POINTS:,}")
+    grid = itertools.product(*(axis.values for axis in axes))
     base = Path(mission.source).parent if mission.source != "<mission>" else None
     missions: list[Mission] = []
     kept: list[tuple[float, ...]] = []
