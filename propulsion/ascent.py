@@ -21,6 +21,7 @@ import numpy as np
 from propulsion import flight
 from propulsion.constants import EARTH_EQUATORIAL_RADIUS, EARTH_MU, STANDARD_GRAVITY
 from propulsion.flight import layout
+from propulsion.impacts import Impact, dropped_stage_impacts
 from propulsion.ledger import Rows, budget
 from propulsion.margins import (
     MIN_PERIGEE,
@@ -292,6 +293,11 @@ class FlightResult:
     ground."""
     rtol: float = 1e-8
     """Relative tolerance the flight was integrated to."""
+    impacts: tuple[Impact, ...] = ()
+    guidance: GuidedAscent | None = None
+    """Where things came down: every dropped stage, falling on its own without recovery,
+    and the vehicle itself when the mission flies to the ground (in the order they land
+    on the list: dropped stages first)."""
 
     @property
     def resolution(self) -> float:
@@ -336,6 +342,7 @@ class FlightResult:
             "apogee_crossrange_m": self.apogee_crossrange,
             "landing_east_m": None if self.landing is None else self.landing[0],
             "landing_north_m": None if self.landing is None else self.landing[1],
+            "impacts": [impact.to_dict() for impact in self.impacts],
             "max_dynamic_pressure_pa": self.max_dynamic_pressure,
             "max_mach": self.max_mach,
             "max_acceleration_g": self.max_acceleration / STANDARD_GRAVITY,
@@ -367,10 +374,109 @@ class FlightResult:
                 "semi_major_axis_m": self.orbit.semi_major_axis,
                 "inclination_deg": math.degrees(self.orbit.inclination),
             },
+            "guidance": None if self.guidance is None else self.guidance.to_dict(),
             **self.verdict.to_dict(),
             "warnings": [finding.__dict__ for finding in self.findings],
             "compute_time_s": self.compute_time,
         }
+
+
+@dataclass(frozen=True)
+class GuidedAscent:
+    """How guidance to an orbit flew (SI): the pitch kick [rad] and whether `fly` chose
+    it, the azimuth flown relative to the ground and its inertial value [rad], the
+    steering law's ``guide_a``/``guide_b``, the target's perigee, apogee [m above the
+    equatorial radius] and inclination [rad] (NaN: none) against what was reached, the
+    propellant left in the last stage at cutoff [kg], and the solve's iterations and
+    convergence."""
+
+    kick_angle: float
+    kick_chosen: bool
+    azimuth: float
+    inertial_azimuth: float
+    guide_a: float
+    guide_b: float
+    target_perigee: float
+    target_apogee: float
+    target_inclination: float
+    perigee: float
+    apogee: float
+    inclination: float
+    propellant_left: float
+    converged: bool
+    iterations: int
+
+    def to_dict(self) -> dict[str, Any]:
+        """JSON-ready (SI, angles in degrees)."""
+        return {
+            "pitch_kick_deg": math.degrees(self.kick_angle),
+            "pitch_kick_chosen": self.kick_chosen,
+            "azimuth_deg": math.degrees(self.azimuth),
+            "inertial_azimuth_deg": math.degrees(self.inertial_azimuth),
+            "steering_a": self.guide_a,
+            "steering_b": self.guide_b,
+            "target_perigee_altitude_m": self.target_perigee,
+            "target_apogee_altitude_m": self.target_apogee,
+            "target_inclination_deg": _degrees_or_none(self.target_inclination),
+            "perigee_altitude_m": self.perigee,
+            "apogee_altitude_m": self.apogee,
+            "inclination_deg": _degrees_or_none(self.inclination),
+            "propellant_left_kg": self.propellant_left,
+            "converged": self.converged,
+            "iterations": self.iterations,
+        }
+
+
+def _degrees_or_none(angle: float) -> float | None:
+    return math.degrees(angle) if math.isfinite(angle) else None
+
+
+def guided_ascent(core: flight.FlightCore, outcome: flight.Outcome) -> GuidedAscent | None:
+    """Sample 0's guidance summary, or None when the flight was not guided to an orbit."""
+    target = core.orbit_target
+    if target is None or "guide_a" not in outcome.extra:
+        return None
+    from propulsion.flight.steering import insertion
+
+    last = core.stages - 1
+    final = outcome.state("final")[:1]
+    ignition = float(outcome.state(f"ignition:{last}")[0, layout.Y_M])
+    burnt = ignition - float(final[0, layout.Y_M]) if math.isfinite(ignition) else 0.0
+    left = max(float(core.usable[last, 0]) - burnt, 0.0)
+    _, _, inclination = insertion(final)
+    orbit = osculating_orbit(
+        final[0, layout.Y_R : layout.Y_R + 3], final[0, layout.Y_V : layout.Y_V + 3]
+    )
+    azimuth = float(outcome.extra["guide_azimuth"][0])
+    inertial = math.nan
+    if core.omega[0] != 0.0 or target.inclination is not None:
+        from propulsion.guidance import InclinationError, inertial_azimuth
+
+        try:
+            inertial = (
+                inertial_azimuth(target.inclination, float(core.latitude[0]))
+                if target.inclination is not None
+                else math.nan
+            )
+        except InclinationError:
+            inertial = math.nan
+    return GuidedAscent(
+        kick_angle=float(core.kick_angle[0]),
+        kick_chosen=core.kick_chosen,
+        azimuth=azimuth,
+        inertial_azimuth=inertial,
+        guide_a=float(outcome.extra["guide_a"][0]),
+        guide_b=float(outcome.extra["guide_b"][0]),
+        target_perigee=target.perigee_radius - EARTH_EQUATORIAL_RADIUS,
+        target_apogee=target.apogee_radius - EARTH_EQUATORIAL_RADIUS,
+        target_inclination=target.inclination if target.inclination is not None else math.nan,
+        perigee=orbit.perigee_altitude,
+        apogee=orbit.apogee_altitude,
+        inclination=float(inclination[0]),
+        propellant_left=left if outcome.status[0] == "orbit" else 0.0,
+        converged=bool(outcome.extra["guide_converged"][0] > 0.5),
+        iterations=int(outcome.extra["guide_iterations"][0]),
+    )
 
 
 def flown_stages(mission: Mission) -> int:
@@ -591,11 +697,28 @@ def fly(mission: Mission, rtol: float = 1e-8, margin: bool = True) -> FlightResu
         )
     verdict = judge_flight(mission, core, outcome, margins=margin, rtol=rtol)
     landing = None
+    impacts: list[Impact] = []
     if outcome.happened("ground")[0]:
         landing = (
             float(outcome.value("ground", "east")[0]),
             float(outcome.value("ground", "north")[0]),
         )
+        impacts.append(
+            Impact(
+                core.stage_names[-1] if core.stages > 1 else "vehicle",
+                landing[0],
+                landing[1],
+                float(outcome.time("ground")[0]),
+                float(outcome.value("ground", "ground_speed")[0]),
+            )
+        )
+    # every dropped stage falls on its own, without recovery, to the ground
+    for name, (east, north, time, speed) in dropped_stage_impacts(core, outcome, rtol).items():
+        if math.isfinite(east[0]):
+            impacts.insert(
+                len(impacts) - (1 if landing else 0),
+                Impact(name, float(east[0]), float(north[0]), float(time[0]), float(speed[0])),
+            )
     result = FlightResult(
         mission=mission,
         outcome=outcome,
@@ -614,9 +737,11 @@ def fly(mission: Mission, rtol: float = 1e-8, margin: bool = True) -> FlightResu
         max_acceleration=float(outcome.value("max_acceleration", "acceleration")[0]),
         rail_exit_speed=float(outcome.value("rail_exit", "ground_speed")[0]),
         orbit=orbit,
+        guidance=guided_ascent(core, outcome),
         compute_time=compute_time,
         rtol=rtol,
         landing=landing,
+        impacts=tuple(impacts),
     )
     # the liftoff thrust-to-weight rule is the budget's (it knows the propellant family's
     # usual minimum); it is a flight warning too

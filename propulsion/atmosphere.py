@@ -45,6 +45,7 @@ __all__ = [
     "geometric_altitude",
     "geopotential_altitude",
     "layer_table",
+    "standard_profile",
     "ussa1976",
 ]
 
@@ -139,6 +140,19 @@ def layer_table() -> tuple[FloatArray, FloatArray]:
     the caller may change them.
     """
     return _LAYER_TOPS.copy(), _COEFFICIENTS.copy()
+
+
+def standard_profile() -> tuple[FloatArray, FloatArray, FloatArray]:
+    """The standard's defining temperature profile: (edges, temperatures, gradients).
+
+    ``edges`` (8,) holds the geopotential altitudes [m'] of the layer bases and, last, the
+    top at 86 km geometric; ``temperatures`` (8,) the molecular-scale temperature [K] at
+    each edge; ``gradients`` (7,) each layer's temperature gradient [K/m'], exactly as the
+    standard defines them. :mod:`propulsion.weather` builds the day's air from them.
+    Copies: the caller may change them.
+    """
+    edges = np.array([*_BASE_GEOPOTENTIAL, _TOP_GEOPOTENTIAL])
+    return edges, _BASE_TEMPERATURE.copy(), np.array(_LAPSE_RATE)
 
 
 class AtmosphereState(NamedTuple):

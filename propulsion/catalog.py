@@ -31,6 +31,7 @@ from typing import Any
 import numpy as np
 
 from propulsion import thrust_curve as tc
+from propulsion.constants import USSA76_SEA_LEVEL_PRESSURE
 from propulsion.errors import DataFileError, MissionFileNotFoundError, PropulsionError
 from propulsion.units import MAX_MAGNITUDE, UnitParseError, parse_quantity
 from propulsion.vehicle import DragCurve, Motor
@@ -46,6 +47,7 @@ __all__ = [
     "excerpt",
     "load_drag_curve",
     "load_motor",
+    "motor_files",
     "motor_names",
     "propellant_families",
     "read_table",
@@ -54,7 +56,13 @@ __all__ = [
     "user_data_file",
 ]
 
-_HEADER_RE = re.compile(r"^\s*(?P<name>[^\[]+?)\s*(?:\[(?P<unit>[^\]]*)\])?\s*$")
+# a column name and its unit in square or round brackets: "time [s]", "thrust (lbf)"
+_HEADER_RE = re.compile(
+    r"^\s*(?P<name>[^\[(]+?)\s*(?:\[(?P<unit>[^\]]*)\]|\((?P<round>[^)]*)\))?\s*$"
+)
+# a number as the data files write it: ASCII digits only (float() also takes "1_000" and
+# Arabic-Indic or full-width digits, which a reader of the file may not see as numbers)
+_NUMBER_RE = re.compile(r"^[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?$")
 _META_RE = re.compile(r"^#\s*(?P<key>[A-Za-z_][A-Za-z0-9_]*)\s*=\s*(?P<value>.*?)\s*$")
 # C0 controls and DEL (ECMA-48, 5th ed., 1991, section 5.2): never part of a file name
 # a mission may give
@@ -141,7 +149,8 @@ def trusted_folders(*folders: str | Path) -> Iterator[None]:
     Parameters
     ----------
     *folders : str or Path
-        The folders; their files and sub-folders may be named.
+        The folders; their files and sub-folders may be named. A file stands for itself
+        alone (``pick`` passes the very curve files the user gave).
     """
     resolved = tuple(Path(folder).resolve() for folder in folders)
     token = _TRUSTED.set(_TRUSTED.get() + resolved)
@@ -246,6 +255,42 @@ def is_file(path: Path) -> bool:
         return False
 
 
+def motor_files(path: str | Path) -> list[Path]:
+    """The thrust-curve files a path given on the command line stands for.
+
+    A path the user types (``pick --motors``, ``data --motors``) is trusted for that run,
+    unlike a file a mission names (:func:`user_data_file`): it may lie anywhere. A folder
+    stands for its ``*.csv`` files (not its sub-folders), in name order; anything else for
+    itself, and :func:`read_table` refuses it if it is not a regular file.
+
+    Parameters
+    ----------
+    path : str or Path
+        A curve file or a folder of them.
+
+    Returns
+    -------
+    list of Path
+        The files, joined to the folder as given (the paths messages name); empty for a
+        folder without ``*.csv`` files.
+
+    Raises
+    ------
+    MissionFileNotFoundError
+        Nothing exists at the path.
+    """
+    path = Path(path)
+    try:
+        if path.is_dir():
+            return sorted(file for file in path.glob("*.csv") if is_file(file))
+        exists = path.exists() or path.is_symlink()
+    except (OSError, ValueError):
+        exists = False
+    if not exists:
+        raise MissionFileNotFoundError(path, "motor file or folder")
+    return [path]
+
+
 def data_dir() -> Path:
     """Return the folder holding the shipped tables.
 
@@ -281,10 +326,12 @@ class Table:
                 self.path, name, "column is missing", f"a column named '{name}'", self.header_line
             )
         unit = self.units[name]
-        factor = 1.0
+        factor, offset = 1.0, 0.0
         if unit:
             try:
-                factor = parse_quantity(f"1 {unit}", dimension)
+                # affine: a unit with an offset (degC, degF) is not a plain factor
+                offset = parse_quantity(f"0 {unit}", dimension)
+                factor = parse_quantity(f"1 {unit}", dimension) - offset
             except UnitParseError as exc:
                 raise DataFileError(
                     self.path,
@@ -296,6 +343,8 @@ class Table:
         values = []
         for row, text in enumerate(self.columns[name]):
             try:
+                if not _NUMBER_RE.match(text):
+                    raise ValueError(text)
                 value = float(text)
             except ValueError:
                 raise DataFileError(
@@ -305,7 +354,7 @@ class Table:
                     "a number",
                     self.line(row),
                 ) from None
-            if not math.isfinite(value) or abs(value * factor) > MAX_MAGNITUDE:
+            if not math.isfinite(value) or abs(value * factor + offset) > MAX_MAGNITUDE:
                 raise DataFileError(
                     self.path,
                     _clip(name),
@@ -313,7 +362,7 @@ class Table:
                     "a finite number",
                     self.line(row),
                 )
-            values.append(value * factor)
+            values.append(value * factor + offset)
         return np.asarray(values, dtype=float)
 
     def meta_quantity(self, key: str, dimension: str) -> float | None:
@@ -452,7 +501,7 @@ def read_table(path: Path) -> Table:
             )
         seen.add(name)
         names.append(name)
-        units[name] = match["unit"]
+        units[name] = match["unit"] if match["unit"] is not None else match["round"]
     columns = {name: [row[i] for row in rows] for i, name in enumerate(names)}
     return Table(path, metadata, columns, units, header_line, row_lines, metadata_lines)
 
@@ -593,6 +642,19 @@ def read_thrust_curve(
             "a key from data/propellants.csv (see `propulsion data`)",
             table.metadata_lines.get("propellant_family"),
         )
+    # a nozzle exit diameter lets the flight move the curve from its test pressure to the
+    # ambient one (the thrust equation); without it the curve is flown as measured
+    exit_diameter = table.meta_quantity("nozzle_exit_diameter", "length")
+    test_pressure = table.meta_quantity("test_pressure", "pressure")
+    for key, value in (("nozzle_exit_diameter", exit_diameter), ("test_pressure", test_pressure)):
+        if value is not None and value <= 0:
+            raise DataFileError(
+                path,
+                key,
+                "must be above zero",
+                "a positive quantity",
+                table.metadata_lines.get(key),
+            )
     return Motor(
         name=table.metadata.get("name", path.stem),
         time=time - time[0],
@@ -602,6 +664,8 @@ def read_thrust_curve(
         propellant_family=family,
         diameter=table.meta_quantity("diameter", "length"),
         source=str(path),
+        exit_area=0.0 if exit_diameter is None else math.pi * exit_diameter**2 / 4.0,
+        test_pressure=USSA76_SEA_LEVEL_PRESSURE if test_pressure is None else test_pressure,
     )
 
 

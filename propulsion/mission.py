@@ -26,6 +26,7 @@ from propulsion.targets import TARGET_KINDS, Requirement, required_delta_v
 from propulsion.text import printable
 from propulsion.units import UnitParseError, parse_quantity
 from propulsion.vehicle import DragCurve, Engine, Motor, Stage, Vehicle
+from propulsion.weather import Sounding, Weather, WeatherError, air_table
 
 __all__ = [
     "FlightSettings",
@@ -46,6 +47,9 @@ UNIT_HINTS = {
     "force": 'N, kN or lbf, for example "1200 lbf"',
     "angle": 'deg or rad, for example "85 deg"',
     "dimensionless": 'a plain number or a percentage, for example "2 %"',
+    "pressure": 'hPa, kPa, Pa or psi, for example "950 hPa"',
+    "temperature": 'degC, degF or K, for example "35 degC"',
+    "temperature_difference": 'K, delta_degC or delta_degF, for example "+15 K"',
 }
 
 MAX_COUNT = 64
@@ -67,6 +71,12 @@ class LaunchSite:
     wind_from: tuple[float, ...] = ()
     """Direction each wind row blows from, clockwise from north [rad]; NaN for a row
     without a direction, which blows along the launch azimuth (negative: against it)."""
+    wind_scale: float = 1.0
+    """A factor on the wind rows (not on ``wind_offset``)."""
+    wind_turn: float = 0.0
+    """An angle added to the direction every wind row blows from [rad] (clockwise)."""
+    air: Weather = field(default_factory=Weather)
+    """The day's air (:mod:`propulsion.weather`); the standard day by default."""
 
     @property
     def rotation(self) -> bool:
@@ -102,7 +112,11 @@ class FlightSettings:
     ``stop_at`` is ``"apogee"`` or ``"ground"``. The pitch kick tilts the thrust from the
     launch direction by ``pitch_kick_angle`` over ``pitch_kick_duration``, starting at
     ``pitch_kick_time`` (or when the speed reaches ``pitch_kick_speed``). ``guidance`` is
-    the steering of the stages after the first: ``"gravity_turn"`` or ``"linear_tangent"``.
+    the steering of the stages after the first: ``"gravity_turn"``, ``"linear_tangent"``
+    (horizontal at burnout), or ``"orbit"`` (the linear-tangent law with its parameters
+    solved for the first leg's orbit: :mod:`propulsion.flight.steering`). ``kick_chosen``:
+    under ``"orbit"``, the file gives when the kick starts but not its angle, so `fly`
+    chooses the angle that leaves the most propellant.
     """
 
     earth: str = "round"
@@ -113,6 +127,7 @@ class FlightSettings:
     pitch_kick_speed: float | None = None
     pitch_kick_duration: float = 1.0
     guidance: str = "gravity_turn"
+    kick_chosen: bool = False
     hold_speed: float = 10.0
 
 
@@ -516,6 +531,31 @@ def _kind(value: Any) -> str:
     return f"a {type(value).__name__}"
 
 
+def _sounding_wind(
+    height: Any, speed: Any, source: Any
+) -> tuple[tuple[float, ...], tuple[float, ...], tuple[float, ...]]:
+    """A sounding's wind as rows above the site: (height [m], speed [m/s], from [rad]).
+
+    Rows at or below the site are replaced by one row at the site, the east and north
+    components interpolated linearly there (the flight holds the lowest row below it).
+    """
+    import numpy as np
+
+    east, north = -speed * np.sin(source), -speed * np.cos(source)
+    above = height > 0
+    if not above.all():
+        at_site = [float(np.interp(0.0, height, column)) for column in (east, north)]
+        height = np.r_[0.0, height[above]]
+        east, north = np.r_[at_site[0], east[above]], np.r_[at_site[1], north[above]]
+    speeds = np.hypot(east, north)
+    directions = np.mod(np.arctan2(-east, -north), 2 * math.pi)
+    return (
+        tuple(float(v) for v in height),
+        tuple(float(v) for v in speeds),
+        tuple(float(v) for v in directions),
+    )
+
+
 _TOP = {"mission", "launch", "vehicle", "stage", "leg", "margins", "flight", "dispersion"}
 _DISPERSION = {"field", "distribution", "mean", "sigma", "low", "high", "mode"}
 DISTRIBUTIONS = {
@@ -543,6 +583,23 @@ _LAUNCH = {
     "elevation",
     "wind",
     "wind_speed",
+    "wind_scale",
+    "wind_turn",
+    "temperature",
+    "temperature_offset",
+    "pressure",
+    "humidity",
+    "sounding",
+}
+# the columns a sounding file may have: dimension, and an example header unit
+_SOUNDING_COLUMNS = {
+    "altitude": ("length", "m"),
+    "temperature": ("temperature", "degC"),
+    "pressure": ("pressure", "hPa"),
+    "dew_point": ("temperature", "degC"),
+    "humidity": ("dimensionless", "%"),
+    "wind_speed": ("speed", "m/s"),
+    "wind_direction": ("angle", "deg"),
 }
 _VEHICLE = {"payload", "diameter", "drag_curve", "drag_scale"}
 _STAGE = {
@@ -673,6 +730,8 @@ class _Builder:
             drag_scale=float(drag_scale if drag_scale is not None else 1.0),
         )
         legs = self._legs(top, vehicle, launch)
+        if flight.guidance == "orbit":
+            self._check_guidance(top, legs, flight, vehicle)
         margins_table = top.table("margins", _MARGINS)
         if margins_table is not None:
             flight_margin = self._flight_margin(
@@ -713,17 +772,260 @@ class _Builder:
         wind_offset = table.quantity(
             "wind_speed", "speed", default=0.0, **RANGES["launch.wind_speed"].bounds()
         )
+        wind_scale = table.quantity(
+            "wind_scale",
+            "dimensionless",
+            default=1.0,
+            **RANGES["launch.wind_scale"].bounds(),
+            expected="a factor from 0 to 10 on the wind rows",
+        )
+        wind_turn = table.quantity(
+            "wind_turn",
+            "angle",
+            default=0.0,
+            **RANGES["launch.wind_turn"].bounds(),
+            expected="an angle from -360 deg to 360 deg added to every wind direction",
+        )
+        air, sounding_wind = self._air(table, float(altitude or 0.0))
+        if sounding_wind is not None:
+            if table.has("wind"):
+                raise table.error(
+                    "wind",
+                    "the sounding gives the wind already (its wind_speed and wind_direction "
+                    "columns)",
+                    "wind rows or a sounding with wind columns, not both",
+                )
+            wind_altitude, wind_speed, wind_from = sounding_wind
         return LaunchSite(
             wind_offset=float(wind_offset or 0.0),
             wind_altitude=wind_altitude,
             wind_speed=wind_speed,
             wind_from=wind_from,
+            wind_scale=float(wind_scale if wind_scale is not None else 1.0),
+            wind_turn=float(wind_turn or 0.0),
+            air=air,
             altitude=float(altitude or 0.0),
             latitude=latitude,
             azimuth=azimuth,
             rail_length=rail,
             elevation=float(elevation or math.pi / 2),
         )
+
+    def _air(
+        self, table: _Table, site_altitude: float
+    ) -> tuple[Weather, tuple[tuple[float, ...], tuple[float, ...], tuple[float, ...]] | None]:
+        """The day's air (``propulsion.weather``) and a sounding's wind rows, if any.
+
+        The air is checked whole by building its layer table once (kept in a cache for
+        the flight).
+        """
+        for first, second in (
+            ("temperature", "temperature_offset"),
+            ("sounding", "temperature"),
+            ("sounding", "temperature_offset"),
+        ):
+            if table.has(first) and table.has(second):
+                raise table.error(
+                    second,
+                    f"give {first} or {second}, not both",
+                    "the site temperature, an offset from the standard, or a sounding",
+                )
+        temperature = table.quantity(
+            "temperature",
+            "temperature",
+            **RANGES["launch.temperature"].bounds(),
+            expected='the air temperature at the site, from -80 degC to 60 degC, e.g. "35 degC"',
+        )
+        offset = table.quantity(
+            "temperature_offset",
+            "temperature_difference",
+            **RANGES["launch.temperature_offset"].bounds(),
+            expected='a temperature difference from -60 K to 60 K, e.g. "+15 K" or '
+            '"-20 delta_degC" (a difference is written in K or delta_degC, not degC)',
+        )
+        pressure = table.quantity(
+            "pressure",
+            "pressure",
+            **RANGES["launch.pressure"].bounds(),
+            expected='the station pressure at the site, from 200 hPa to 1100 hPa, e.g. "950 hPa"',
+        )
+        humidity = table.quantity(
+            "humidity",
+            "dimensionless",
+            **RANGES["launch.humidity"].bounds(),
+            expected='a relative humidity from 0 % to 100 %, e.g. "60 %"',
+        )
+        sounding, wind, path, lines = None, None, Path(), [0]
+        if table.has("sounding"):
+            sounding, wind, path, lines = self._sounding(table, site_altitude)
+            for key, column in (("pressure", "pressure"), ("humidity", "dew point or humidity")):
+                own = sounding.pressure if key == "pressure" else sounding.dew_point
+                own = own or (sounding.humidity if key == "humidity" else ())
+                if own and table.has(key):
+                    raise table.error(
+                        key,
+                        f"the sounding gives the {column} already",
+                        f"{key} in [launch] only with a sounding that has no {column} column",
+                    )
+        weather = Weather(temperature, offset, pressure, humidity, sounding)
+        try:
+            air_table(weather, site_altitude)
+        except WeatherError as exc:
+            if exc.row is not None:
+                raise DataFileError(
+                    path, exc.field, exc.problem, exc.expected, lines[exc.row]
+                ) from None
+            if exc.field in _LAUNCH:
+                raise table.error(exc.field, exc.problem, exc.expected) from None
+            raise table.error("sounding", exc.problem, exc.expected) from None
+        return weather, wind
+
+    def _sounding(
+        self, table: _Table, site_altitude: float
+    ) -> tuple[
+        Sounding,
+        tuple[tuple[float, ...], tuple[float, ...], tuple[float, ...]] | None,
+        Path,
+        list[int],
+    ]:
+        """Read a sounding file (CSV, units in the header, in the mission's folder).
+
+        Returns the sounding, its wind as rows of height above the site (None without wind
+        columns), the file's path and the line of each row.
+        """
+        try:
+            path = catalog.user_data_file(
+                table.string("sounding", path=True), self.base_dir, "sounding"
+            )
+            data = catalog.read_table(path)
+        except catalog.DataPathError as exc:
+            raise table.error("sounding", exc.problem, exc.expected) from None
+        except MissionFileNotFoundError as exc:
+            raise table.error("sounding", str(exc), "an existing CSV file") from exc
+        known = ", ".join(_SOUNDING_COLUMNS)
+        header = data.header_line
+        names: dict[str, str] = {}
+        for name in data.columns:
+            key = name.strip().lower().replace(" ", "_")
+            if key not in _SOUNDING_COLUMNS:
+                hint = _suggest(key, _SOUNDING_COLUMNS)
+                raise DataFileError(
+                    path, "", f"unknown column {catalog.excerpt(name)}{hint}", known, header
+                )
+            names[key] = name
+        for key in ("altitude", "temperature"):
+            if key not in names:
+                raise DataFileError(
+                    path,
+                    key,
+                    "column is missing",
+                    f"the columns altitude and temperature, and any of: {known}",
+                    header,
+                )
+        if "dew_point" in names and "humidity" in names:
+            raise DataFileError(
+                path, "humidity", "both dew_point and humidity", "one of them", header
+            )
+        if ("wind_speed" in names) != ("wind_direction" in names):
+            raise DataFileError(
+                path,
+                "wind_speed",
+                "one wind column without the other",
+                "both wind_speed and wind_direction (blowing from), or neither",
+                header,
+            )
+        values: dict[str, Any] = {}
+        for key, name in names.items():
+            dimension, unit = _SOUNDING_COLUMNS[key]
+            if dimension != "dimensionless" and not (data.units[name] or "").strip():
+                raise DataFileError(
+                    path,
+                    key,
+                    f"the {key} column states no unit (a column without one is a plain number)",
+                    f"a header with units, such as '{key} [{unit}]'",
+                    header,
+                )
+            values[key] = data.numeric(name, dimension)
+        import numpy as np
+
+        rows = len(values["altitude"])
+        if rows < 2:
+            raise DataFileError(path, "", f"{rows} row(s)", "at least two rows", header)
+
+        def check(key: str, bad: Any, problem: str, expected: str) -> None:
+            found = np.flatnonzero(bad)
+            if found.size:
+                row = int(found[0])
+                raise DataFileError(path, key, problem, expected, data.line(row))
+
+        altitude, temperature = values["altitude"], values["temperature"]
+        check(
+            "altitude",
+            (altitude < -500) | (altitude > 86e3),
+            "out of range",
+            "an altitude above sea level from -500 m to 86 km",
+        )
+        check(
+            "altitude",
+            np.r_[False, np.diff(altitude) <= 0],
+            "does not increase",
+            "altitudes that increase from row to row",
+        )
+        check(
+            "temperature",
+            (temperature < 120) | (temperature > 350),
+            "out of range",
+            "a temperature from 120 K to 350 K (-153 degC to 77 degC)",
+        )
+        if "pressure" in values:
+            pressure = values["pressure"]
+            check("pressure", pressure <= 0, "not above zero", "a pressure above zero")
+            check(
+                "pressure",
+                np.r_[False, np.diff(pressure) >= 0],
+                "does not decrease",
+                "pressures that fall as the altitude rises",
+            )
+        if "dew_point" in values:
+            dew = values["dew_point"]
+            check(
+                "dew_point",
+                (dew < 120) | (dew > temperature),
+                "out of range",
+                "a dew point from 120 K up to the row's temperature",
+            )
+        if "humidity" in values:
+            check(
+                "humidity",
+                (values["humidity"] < 0) | (values["humidity"] > 1),
+                "out of range",
+                "a relative humidity from 0 to 1 (or 0 % to 100 % with the header 'humidity [%]')",
+            )
+        wind = None
+        if "wind_speed" in values:
+            speed, source = values["wind_speed"], values["wind_direction"]
+            check(
+                "wind_speed",
+                (speed < 0) | (speed > 200),
+                "out of range",
+                "a wind speed from 0 to 200 m/s",
+            )
+            check(
+                "wind_direction",
+                (source < 0) | (source > 2 * math.pi),
+                "out of range",
+                "the direction the wind blows from, 0 to 360 deg clockwise from north",
+            )
+            wind = _sounding_wind(altitude - site_altitude, speed, source)
+        sounding = Sounding(
+            tuple(float(v) for v in altitude),
+            tuple(float(v) for v in temperature),
+            *(
+                tuple(float(v) for v in values[key]) if key in values else ()
+                for key in ("pressure", "dew_point", "humidity")
+            ),
+        )
+        return sounding, wind, path, [data.line(row) for row in range(rows)]
 
     def _dispersions(self, top: _Table, data: dict[str, Any]) -> tuple[Dispersion, ...]:
         from propulsion import fields
@@ -859,8 +1161,10 @@ class _Builder:
         if stop_at not in ("apogee", "ground"):
             raise table.error("stop_at", f"is {stop_at!r}", "'apogee' or 'ground'")
         guidance = table.string("guidance", default="gravity_turn")
-        if guidance not in ("gravity_turn", "linear_tangent"):
-            raise table.error("guidance", f"is {guidance!r}", "'gravity_turn' or 'linear_tangent'")
+        if guidance not in ("gravity_turn", "linear_tangent", "orbit"):
+            raise table.error(
+                "guidance", f"is {guidance!r}", "'gravity_turn', 'linear_tangent' or 'orbit'"
+            )
         if table.has("pitch_kick_time") and table.has("pitch_kick_speed"):
             raise table.error(
                 "pitch_kick_time",
@@ -869,7 +1173,9 @@ class _Builder:
             )
         has_angle = table.has("pitch_kick_angle")
         has_when = table.has("pitch_kick_time") or table.has("pitch_kick_speed")
-        if has_angle != has_when:
+        # under guidance to an orbit the kick angle may be left to `fly` to choose
+        chosen = guidance == "orbit" and has_when and not has_angle
+        if has_angle != has_when and not chosen:
             raise table.error(
                 "pitch_kick_angle" if has_when else "pitch_kick_time",
                 "a pitch kick needs both its angle and when it starts",
@@ -909,6 +1215,7 @@ class _Builder:
                 or 1.0
             ),
             guidance=guidance,
+            kick_chosen=chosen,
             hold_speed=float(
                 table.quantity("hold_attitude_below", "speed", default=10.0, low=0.0, high=1e3)
                 or 0.0
@@ -1413,6 +1720,8 @@ class _Builder:
                 )
             last_index = indices[-1]
             fields = self._target_fields(table, kind.required, kind.optional, kind_name)
+            if "inclination" in fields:
+                self._check_inclination(table, fields["inclination"], launch, not legs)
             reserve = float(table.quantity("reserve", "speed", default=0.0, low=0.0) or 0.0)
             try:
                 requirement = required_delta_v(
@@ -1422,6 +1731,58 @@ class _Builder:
                 raise table.error("target", str(exc), "a target that can be reached") from exc
             legs.append(Leg(name, tuple(stage_names), kind_name, fields, requirement, reserve))
         return legs
+
+    def _check_guidance(
+        self, top: _Table, legs: list[Leg], flight: FlightSettings, vehicle: Vehicle
+    ) -> None:
+        """Guidance to an orbit needs a first leg to a circular orbit, a round Earth and an
+        engine upper stage."""
+        table = top.table("flight", _FLIGHT)
+        assert table is not None
+        if not legs or legs[0].target != "circular_orbit":
+            raise table.error(
+                "guidance",
+                "'orbit' guides the ascent to the first leg's orbit, and the first leg has none",
+                'a first [[leg]] with target = "circular_orbit"',
+            )
+        if flight.earth == "flat":
+            raise table.error(
+                "guidance", "'orbit' needs a round Earth", 'earth = "round" or "ellipsoid"'
+            )
+        last = legs[0].stages[-1]
+        stage = next(item for item in vehicle.stages if item.name == last)
+        if stage.is_motor:
+            raise table.error(
+                "guidance",
+                f"'orbit' cuts the last stage off at the target, and '{last}' is a motor",
+                "an engine stage ([stage.engine]) as the ascent's last stage",
+            )
+
+    def _check_inclination(
+        self, table: _Table, inclination: float, launch: LaunchSite, first: bool
+    ) -> None:
+        """A target inclination needs the site's latitude, the first leg, and must be
+        reachable from the site without a plane change."""
+        from propulsion.guidance import InclinationError, inertial_azimuth
+
+        if not first:
+            raise table.error(
+                "inclination",
+                "only the first leg's orbit (the ascent) can name an inclination",
+                "inclination in the first [[leg]] (later legs keep the plane)",
+            )
+        if launch.latitude is None:
+            raise table.error(
+                "inclination",
+                "needs the launch site's latitude",
+                'latitude in [launch], e.g. latitude = "38 deg"',
+            )
+        try:
+            inertial_azimuth(inclination, launch.latitude)
+        except InclinationError as exc:
+            raise table.error(
+                "inclination", str(exc), "an inclination the site reaches directly"
+            ) from None
 
     def _target_fields(
         self, table: _Table, required: dict[str, str], optional: dict[str, str], kind: str

@@ -26,7 +26,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-from propulsion.errors import MissionFileNotFoundError, RequestError
+from propulsion.errors import RequestError
 from propulsion.ledger import Rows
 from propulsion.vehicle import Motor
 
@@ -43,7 +43,9 @@ __all__ = [
     "PickError",
     "PickResult",
     "PrunedCandidate",
+    "ShortStack",
     "cluster_fits",
+    "motor_item",
     "motor_options",
     "pick",
 ]
@@ -75,6 +77,9 @@ CLUSTER_SPAN: dict[int, float] = {
 MAX_CLUSTER = max(CLUSTER_SPAN)
 """Largest cluster :func:`pick` tries."""
 
+CLOSEST = 3
+"""Stacks a pick that reaches nothing lists as the closest (:meth:`PickResult.closest`)."""
+
 PRUNE_REASONS = ("delta_v", "thrust_to_weight")
 """Why a candidate was not flown: ideal delta-v below the drag-free requirement, or
 liftoff thrust-to-weight below 1."""
@@ -88,11 +93,19 @@ class PickError(RequestError):
 
 @dataclass(frozen=True, eq=False)
 class MotorOption:
-    """A motor the selection may use: a shipped one (by name) or a curve file (SI inside)."""
+    """A motor the selection may use: a shipped one (by name) or a curve file (SI inside).
+
+    ``file`` is the resolved path of a curve file the user gave, None for a shipped motor.
+    """
 
     name: str
     motor: Motor
     file: Path | None = None
+
+    @property
+    def origin(self) -> str:
+        """``"shipped"`` for a motor of data/motors/, ``"user"`` for one from a file."""
+        return "shipped" if self.file is None else "user"
 
     def table(self, count: int) -> dict[str, Any]:
         """The ``[stage.motor]`` table that flies ``count`` of this motor."""
@@ -142,30 +155,128 @@ def cluster_fits(motor_diameter: float | None, count: int, section_diameter: flo
     return CLUSTER_SPAN[count] * motor_diameter <= section_diameter * (1.0 + _FIT_TOLERANCE)
 
 
-def motor_options(motors: Sequence[str] | str | Path | None = None) -> tuple[MotorOption, ...]:
-    """Resolve a motor library: shipped motors by name, or every curve in a folder.
+def motor_item(text: str) -> str | Path:
+    """Read one entry of a motor list: a shipped motor's name, or a file or folder.
+
+    A shipped motor's name stays a name (write ``./pd-H113`` for a file or folder of that
+    name). Other text is a path when it holds a path separator, ends in ``.csv`` or names
+    something that exists; anything else stays a name, which :func:`motor_options` refuses
+    with the closest shipped name.
 
     Parameters
     ----------
-    motors : sequence of str, str, Path or None
-        Names of shipped motors (``["pd-G58", "pd-H113"]``); a folder (str or Path) of
-        thrust-curve CSV files in the project's format; None for every shipped motor.
+    text : str
+        The entry as the user wrote it.
+
+    Returns
+    -------
+    str or Path
+        The shipped name (str) or the path (Path).
+    """
+    from propulsion import catalog
+
+    text = text.strip()
+    if text in catalog.motor_names():
+        return text
+    path = Path(text)
+    try:
+        exists = path.exists()
+    except (OSError, ValueError):  # a name the file system refuses (too long)
+        exists = False
+    if exists or "/" in text or "\\" in text or text.lower().endswith(".csv"):
+        return path
+    return text
+
+
+def _file_options(path: Path) -> list[MotorOption]:
+    """The motors of a curve file or of a folder's ``*.csv`` files, in name order."""
+    from propulsion import catalog
+
+    files = catalog.motor_files(path)
+    if not files:
+        raise PickError(
+            f"the folder {path} holds no thrust curves",
+            "CSV files in the format of data/README.md ('time [s],thrust [N]')",
+        )
+    options = []
+    for file in files:
+        curve = catalog.read_thrust_curve(file)  # a located DataFileError for a bad file
+        options.append(MotorOption(curve.name, curve, file.resolve()))
+    return options
+
+
+def _same_motor(a: Motor, b: Motor) -> bool:
+    """Whether two motors fly alike: same name, curve, masses, family and diameter."""
+    import numpy as np
+
+    return (
+        a.name == b.name
+        and np.array_equal(a.time, b.time)
+        and np.array_equal(a.thrust, b.thrust)
+        and (a.propellant_mass, a.case_mass) == (b.propellant_mass, b.case_mass)
+        and (a.propellant_family, a.diameter) == (b.propellant_family, b.diameter)
+    )
+
+
+def _where(option: MotorOption) -> str:
+    return "the shipped motor" if option.file is None else str(option.file)
+
+
+def _distinct(options: Iterable[MotorOption]) -> tuple[MotorOption, ...]:
+    """The options with one motor per name: the same motor twice is kept once, two
+    different motors of one name are refused (tables and JSON name motors by name)."""
+    kept: dict[str, MotorOption] = {}
+    for option in options:
+        seen = kept.get(option.name)
+        if seen is None:
+            kept[option.name] = option
+            continue
+        if _same_motor(seen.motor, option.motor):
+            continue
+        fix = "one name per motor: change the '# name = ...' line of your curve file"
+        if seen.file is None or option.file is None:
+            fix += ", or leave the shipped motors out with --no-library (library=False)"
+        raise PickError(
+            f"two different motors are called '{option.name}': {_where(seen)} and {_where(option)}",
+            fix,
+        )
+    return tuple(kept.values())
+
+
+def motor_options(
+    motors: Sequence[str | Path] | str | Path | None = None, library: bool = False
+) -> tuple[MotorOption, ...]:
+    """Resolve a motor list: shipped motors by name, curve files and folders of them.
+
+    Parameters
+    ----------
+    motors : sequence of str or Path, str, Path or None
+        Shipped motor names (``"pd-H113"``), curve files and folders of curve files in the
+        project's format, in any mix (a ``str`` entry is read with :func:`motor_item`, a
+        ``Path`` is a file or folder); a lone str or Path is a file or folder. None: every
+        shipped motor.
+    library : bool
+        Also every shipped motor, when ``motors`` names no shipped motor (files and
+        folders only). Shipped names choose from the library, so with names given only
+        those are tried. The command line sets this unless ``--no-library``.
 
     Returns
     -------
     tuple of MotorOption
-        The motors, in the order given (shipped ones in impulse order, a folder's files in
-        name order), without duplicates.
+        The motors in the order given (a folder's files in name order, the library in
+        impulse order, after the rest). The same motor given twice (the same file, or an
+        unchanged copy of a shipped curve) is kept once.
 
     Raises
     ------
     PickError
-        An unknown motor name (with the closest name), an empty list, or a folder without
-        curves.
+        An unknown motor name (with the closest name), an empty list, a folder without
+        curves, or two different motors of one name (a team's curve that calls itself
+        ``pd-H113``, say).
     MissionFileNotFoundError
-        The folder does not exist.
+        A file or folder that does not exist.
     DataFileError
-        A curve file in the folder that cannot be read.
+        A curve file that is not a motor (with its file and line).
 
     References
     ----------
@@ -175,36 +286,40 @@ def motor_options(motors: Sequence[str] | str | Path | None = None) -> tuple[Mot
 
     if motors is None:
         return tuple(MotorOption(name, catalog.load_motor(name)) for name in catalog.motor_names())
+    items: list[str | Path]
     if isinstance(motors, str | Path):
-        folder = Path(motors)
-        if not folder.is_dir():
-            raise MissionFileNotFoundError(folder, "motor folder")
-        files = sorted(path for path in folder.glob("*.csv") if catalog.is_file(path))
-        if not files:
-            raise PickError(
-                f"the folder {folder} holds no thrust curves",
-                "CSV files in the format of data/README.md ('time [s],thrust [N]')",
-            )
-        return tuple(
-            MotorOption(curve.name, curve, path.resolve())
-            for path in files
-            for curve in (catalog.read_thrust_curve(path),)
+        items = [Path(motors)]
+    else:
+        items = [
+            item if isinstance(item, Path) else motor_item(item)
+            for item in motors
+            if isinstance(item, Path) or item.strip()
+        ]
+    if not items:
+        raise PickError(
+            "no motors given", "one or more motor names, curve files or folders of curves"
         )
-    names = [name.strip() for name in motors if name.strip()]
-    if not names:
-        raise PickError("no motors given", "one or more motor names, or a folder of curves")
     known = catalog.motor_names()
     options: list[MotorOption] = []
-    for name in dict.fromkeys(names):
-        if name not in known:
-            close = difflib.get_close_matches(name, known, n=1)
+    named = False
+    for item in items:
+        if isinstance(item, Path):
+            options.extend(_file_options(item))
+            continue
+        if item not in known:
+            close = difflib.get_close_matches(item, known, n=1)
             hint = f"; did you mean '{close[0]}'?" if close else ""
             raise PickError(
-                f"no shipped motor is called '{name}'{hint}",
-                "names listed by `propulsion data`: " + ", ".join(known),
+                f"no shipped motor is called '{item}'{hint}",
+                "names listed by `propulsion data`: "
+                + ", ".join(known)
+                + "; or the path of a curve file or folder",
             )
-        options.append(MotorOption(name, catalog.load_motor(name)))
-    return tuple(options)
+        named = True
+        options.append(MotorOption(item, catalog.load_motor(item)))
+    if library and not named:
+        options.extend(MotorOption(name, catalog.load_motor(name)) for name in known)
+    return _distinct(options)
 
 
 @dataclass(frozen=True)
@@ -222,6 +337,8 @@ class Candidate:
     motors: str
     stages: tuple[str, ...]
     choice: tuple[tuple[str, int, str | None], ...]
+    """Per stage: the motor's name, how many, and the curve file of a user's motor (None
+    for a shipped one)."""
     total_impulse: float
     impulse_class: str
     liftoff_mass: float
@@ -246,7 +363,13 @@ class Candidate:
             "motors": self.motors,
             "stages": list(self.stages),
             "stage_motors": [
-                {"stage": stage, "motor": motor, "count": count, "file": file}
+                {
+                    "stage": stage,
+                    "motor": motor,
+                    "count": count,
+                    "origin": "shipped" if file is None else "user",
+                    "file": file,
+                }
                 for stage, (motor, count, file) in zip(self.stages, self.choice, strict=True)
             ],
             "total_impulse_n_s": self.total_impulse,
@@ -271,7 +394,10 @@ class PrunedCandidate:
     """A candidate the ideal budget ruled out before flying (SI units).
 
     ``reason`` is ``"delta_v"`` (ideal delta-v below the drag-free requirement) or
-    ``"thrust_to_weight"`` (liftoff thrust-to-weight below 1).
+    ``"thrust_to_weight"`` (liftoff thrust-to-weight below 1). ``apogee_bound`` is the
+    apogee above the site of a drag-free vertical climb on the ideal delta-v (plus the
+    site's rotation speed where the pruning counts it) [m]: no flight of the stack goes
+    higher (see :func:`pick`).
     """
 
     motors: str
@@ -282,6 +408,9 @@ class PrunedCandidate:
     liftoff_thrust_to_weight: float
     ideal_delta_v: float
     mission: Mission = field(repr=False, compare=False)
+    apogee_bound: float = math.nan
+    choice: tuple[tuple[str, int, str | None], ...] = ()
+    """Per stage: motor name, count and the user's curve file (as in :class:`Candidate`)."""
 
     def to_dict(self) -> dict[str, Any]:
         """Fields keyed with SI unit suffixes, for JSON and DataFrames."""
@@ -293,6 +422,51 @@ class PrunedCandidate:
             "liftoff_mass_kg": self.liftoff_mass,
             "liftoff_thrust_to_weight": self.liftoff_thrust_to_weight,
             "ideal_delta_v_m_s": self.ideal_delta_v,
+            "apogee_bound_m": self.apogee_bound,
+        }
+
+
+@dataclass(frozen=True)
+class ShortStack:
+    """A stack that falls short and by how much, for a pick where none reaches the target.
+
+    ``how`` says where the numbers come from: ``"flown"`` (``apogee`` is the flight's, and
+    ``shortfall`` = needed apogee - apogee exactly), ``"delta_v"`` (pruned, not flown:
+    ``apogee`` is its drag-free bound, so the real shortfall is **at least**
+    ``shortfall``) or ``"thrust_to_weight"`` (pruned: it cannot lift off; ``apogee`` and
+    ``shortfall`` are NaN). ``target_margin`` is apogee - target [m], the target margin
+    (for ``"delta_v"`` a bound too). Lengths in m, impulse in N·s.
+    """
+
+    motors: str
+    stages: tuple[str, ...]
+    how: str
+    apogee: float
+    shortfall: float
+    target_margin: float
+    total_impulse: float
+    liftoff_thrust_to_weight: float
+    choice: tuple[tuple[str, int, str | None], ...] = ()
+    """Per stage: motor name, count and the user's curve file (as in :class:`Candidate`)."""
+
+    @property
+    def flown(self) -> bool:
+        """Whether the numbers come from a flight (else from the ideal budget)."""
+        return self.how == "flown"
+
+    def to_dict(self) -> dict[str, Any]:
+        """Fields keyed with SI unit suffixes, for JSON."""
+        return {
+            "motors": self.motors,
+            "stages": list(self.stages),
+            "how": self.how,
+            "flown": self.flown,
+            "apogee_m": self.apogee,
+            "apogee_is_bound": self.how == "delta_v",
+            "shortfall_m": self.shortfall,
+            "target_margin_m": self.target_margin,
+            "total_impulse_n_s": self.total_impulse,
+            "liftoff_thrust_to_weight": self.liftoff_thrust_to_weight,
         }
 
 
@@ -303,7 +477,10 @@ class PickResult:
     ``rows`` holds every flown candidate: those that meet the target first, in the order
     of the criterion, then those that fall short, closest first (by nearest apogee: all
     of them by their distance to the target). ``drag_free_delta_v`` [m/s] is the ideal
-    delta-v below which a candidate was pruned.
+    delta-v below which a candidate was pruned. ``needed_apogee`` [m] is the apogee a
+    stack must reach to meet the target: the target, plus the target margin
+    ``[margins.flight]`` asks for when it judges the target (as ``fly --no-margin``
+    judges; the propulsion and payload margins are not computed).
     """
 
     mission: Mission
@@ -316,6 +493,7 @@ class PickResult:
     rows: Rows[Candidate]
     pruned_rows: Rows[PrunedCandidate]
     compute_time: float
+    needed_apogee: float = math.nan
 
     @property
     def flown(self) -> int:
@@ -340,6 +518,61 @@ class PickResult:
         """The first candidate by the criterion that meets the target, if any."""
         return next((row for row in self.rows if row.meets_target), None)
 
+    def closest(self, count: int = CLOSEST) -> tuple[ShortStack, ...]:
+        """When no stack meets the target, the ``count`` that come closest, best first.
+
+        Flown stacks come first, by their shortfall from :attr:`needed_apogee`; then the
+        stacks pruned for their ideal delta-v, by the shortfall of their drag-free
+        apogee bound (a least shortfall: pruned stacks are not flown); then those that
+        cannot lift off, by liftoff thrust-to-weight. Empty when a stack meets the target.
+        """
+        if self.meeting:
+            return ()
+        target, needed = self.target_apogee, self.needed_apogee
+        entries = [
+            ShortStack(
+                motors=row.motors,
+                stages=row.stages,
+                how="flown",
+                apogee=row.apogee,
+                # the margin is apogee - target, or -target when no apogee was reached
+                shortfall=(needed - target) - row.margin,
+                target_margin=row.margin,
+                total_impulse=row.total_impulse,
+                liftoff_thrust_to_weight=row.liftoff_thrust_to_weight,
+                choice=row.choice,
+            )
+            for row in self.rows
+        ]
+        entries.sort(key=lambda e: (_finite(e.shortfall), e.total_impulse, e.motors))
+        bounded = []
+        for pruned in self.pruned_rows:
+            lifts = pruned.reason == "delta_v"
+            bound = pruned.apogee_bound if lifts else math.nan
+            bounded.append(
+                ShortStack(
+                    motors=pruned.motors,
+                    stages=pruned.stages,
+                    how=pruned.reason,
+                    apogee=bound,
+                    shortfall=needed - bound,
+                    target_margin=bound - target,
+                    total_impulse=pruned.total_impulse,
+                    liftoff_thrust_to_weight=pruned.liftoff_thrust_to_weight,
+                    choice=pruned.choice,
+                )
+            )
+        bounded.sort(
+            key=lambda e: (
+                e.how != "delta_v",
+                _finite(e.shortfall),
+                -e.liftoff_thrust_to_weight,
+                e.total_impulse,
+                e.motors,
+            )
+        )
+        return tuple((entries + bounded)[: max(count, 0)])
+
     def ranked_by(self, criterion: str) -> PickResult:
         """The same flights ranked by another criterion (no flight is repeated)."""
         criterion = _criterion(criterion)
@@ -362,6 +595,7 @@ class PickResult:
             "criterion": self.criterion,
             "target": "apogee",
             "target_apogee_m": self.target_apogee,
+            "needed_apogee_m": self.needed_apogee,
             "drag_free_delta_v_m_s": self.drag_free_delta_v,
             "stage_counts": list(self.stage_counts),
             "max_cluster": self.max_cluster,
@@ -374,6 +608,7 @@ class PickResult:
             "best": None if best is None else best.to_dict(),
             "candidates": [row.to_dict() for row in self.rows],
             "pruned_candidates": [row.to_dict() for row in self.pruned_rows],
+            "closest": [entry.to_dict() for entry in self.closest()],
             "compute_time_s": self.compute_time,
         }
 
@@ -467,6 +702,16 @@ def _label(names: Sequence[str], combo: Sequence[tuple[MotorOption, int]]) -> st
     return "; ".join(parts)
 
 
+def _choice(
+    combo: Sequence[tuple[MotorOption, int]],
+) -> tuple[tuple[str, int, str | None], ...]:
+    """Per stage: the motor's name, the count and the user's curve file (None if shipped)."""
+    return tuple(
+        (option.name, count, None if option.file is None else str(option.file))
+        for option, count in combo
+    )
+
+
 def _rotation_speed(mission: Mission) -> float:
     launch = mission.launch
     if not launch.rotation or mission.flight.earth != "round":
@@ -475,6 +720,31 @@ def _rotation_speed(mission: Mission) -> float:
 
     assert launch.latitude is not None and launch.azimuth is not None
     return abs(float(earth_rotation_speed(launch.latitude, launch.azimuth)))
+
+
+def _drag_free_apogee(site_altitude: float, speed: float) -> float:
+    """Apogee above the site of a drag-free vertical climb from the site at ``speed`` [m].
+
+    Energy law with inverse-square gravity, v²/2 - μ/r_site = -μ/r_apogee (Curtis,
+    Orbital Mechanics for Engineering Students, 3rd ed., 2013, eq. 2.80), from the same
+    radius as the apogee target's requirement (``targets``); infinite at escape speed.
+    """
+    from propulsion.constants import EARTH_EQUATORIAL_RADIUS, EARTH_MU
+
+    r_site = EARTH_EQUATORIAL_RADIUS + site_altitude
+    inverse = 1.0 / r_site - speed**2 / (2.0 * EARTH_MU)
+    return 1.0 / inverse - r_site if inverse > 0 else math.inf
+
+
+def _needed_apogee(mission: Mission, target: float) -> float:
+    """The apogee a flight without margins must reach to pass [m]: the target plus the
+    target margin ``[margins.flight]`` asks for when it judges the target; as
+    ``margins.asked_amount`` and ``margins.judge_flight`` (other margins are not
+    computed without ``margin=True``, so they ask nothing)."""
+    setting = mission.margins.flight
+    if setting.judge != "target":
+        return target
+    return target + (setting.required * target if setting.is_fraction else setting.required)
 
 
 def _finite(value: float, fallback: float = math.inf) -> float:
@@ -509,12 +779,13 @@ def _rank(rows: Iterable[Candidate], criterion: str, target: float) -> list[Cand
 
 def pick(
     mission: Mission,
-    motors: Sequence[str] | str | Path | None = None,
+    motors: Sequence[str | Path] | str | Path | None = None,
     stage_counts: Iterable[int] | None = None,
     max_cluster: int = 1,
     criterion: str = "least_impulse",
     target_apogee: float | None = None,
     progress: Callable[[int, int], None] | None = None,
+    library: bool = False,
 ) -> PickResult:
     """Choose motors and stack size for a mission's airframe sections to reach an apogee.
 
@@ -525,9 +796,10 @@ def pick(
         :func:`propulsion.parse_mission`; its ``[[stage]]`` tables are the airframe
         sections (inert mass without motors, diameter, drag curve, delays), in firing order,
         and every one must be a motor stage. Its first leg gives the target (an apogee).
-    motors : sequence of str, str, Path or None
-        Shipped motor names, or a folder of thrust-curve CSV files; None for every
-        shipped motor (see :func:`motor_options`).
+    motors : sequence of str or Path, str, Path or None
+        Shipped motor names, thrust-curve CSV files and folders of them, in any mix; a
+        lone str or Path is a file or folder; None for every shipped motor (see
+        :func:`motor_options`).
     stage_counts : iterable of int or None
         Stack sizes to try, each from 1 to the number of sections. A k-stage candidate
         flies the top k sections. None tries every size.
@@ -542,18 +814,25 @@ def pick(
         (needed when the mission states no leg). The leg's loss allowance and reserve stay.
     progress : callable or None
         Called as ``progress(done, total)`` after each flight [count, count].
+    library : bool
+        Also try every shipped motor when ``motors`` names files and folders only (see
+        :func:`motor_options`; the command line's default, unless ``--no-library``).
 
     Returns
     -------
     PickResult
-        Flown candidates best first, pruned candidates, the counts, the target apogee [m]
-        and the drag-free ideal delta-v used for pruning [m/s].
+        Flown candidates best first, pruned candidates, the counts, the target apogee [m],
+        the apogee needed to pass [m], the drag-free ideal delta-v used for pruning [m/s],
+        and, when nothing meets the target, the closest stacks
+        (:meth:`PickResult.closest`).
 
     Raises
     ------
     PickError
         Unknown motor or criterion, stage counts out of range, a cluster size out of range,
-        an engine stage, or no apogee target.
+        an engine stage, no apogee target, or two different motors of one name.
+    DataFileError
+        A motor file that is not a thrust curve (with its file and line).
 
     Notes
     -----
@@ -570,8 +849,17 @@ def pick(
     wind's push on a slow rocket is neglected. Stacks whose liftoff thrust-to-weight
     (average thrust of the first stage over liftoff weight, as in the budget) is below 1
     are pruned too. Survivors are flown with ``fly(margin=False)``: a candidate meets the
-    target when its apogee reaches the target altitude (the delta-v margin the mission
-    asks for is not checked). Ties are broken by total impulse.
+    target when its apogee reaches the target altitude plus the target margin
+    ``[margins.flight]`` asks for when it judges the target (the needed apogee; the
+    propulsion and payload margins are not computed, and the budget's delta-v margin is
+    not checked). Ties are broken by total impulse. A pruned stack's apogee bound is the
+    drag-free apogee of its ideal delta-v plus the rotation speed, by the same energy
+    law, so its shortfall in :meth:`PickResult.closest` is a least one.
+
+    The curve files the user gives are trusted for the run: the candidate documents name
+    them by absolute path, and :func:`propulsion.catalog.trusted_folders` lets exactly
+    those files through the mission-folder rule of
+    :func:`propulsion.catalog.user_data_file`.
 
     References
     ----------
@@ -599,10 +887,11 @@ def pick(
     sections = _sections(mission)
     counts = _stage_counts(stage_counts, len(sections))
     leg = _leg_template(mission, target_apogee)
-    options = motor_options(motors)
+    options = motor_options(motors, library)
     base_dir = Path(mission.source).parent
-    # the user's own motor folder may lie outside the mission's folder (catalog.user_data_file)
-    folders = {option.file.parent for option in options if option.file is not None}
+    # the user's own curve files may lie outside the mission's folder: trust exactly those
+    # (catalog.user_data_file), not the folders around them
+    files = [option.file for option in options if option.file is not None]
 
     per_section = [
         [
@@ -635,7 +924,7 @@ def pick(
             document["stage"] = stages
             document["leg"] = [{**copy.deepcopy(leg), "stages": list(names)}]
             document.pop("dispersion", None)  # uncertainties name the mission's own stages
-            with catalog.trusted_folders(*folders):
+            with catalog.trusted_folders(*files):
                 candidate = parse_mission(document, source=mission.source, base_dir=base_dir)
             first = candidate.legs[0]
             target = first.fields["altitude"]
@@ -662,6 +951,8 @@ def pick(
                         liftoff_thrust_to_weight=thrust_to_weight,
                         ideal_delta_v=ideal,
                         mission=candidate,
+                        apogee_bound=_drag_free_apogee(candidate.launch.altitude, ideal + rotation),
+                        choice=_choice(combo),
                     )
                 )
             else:
@@ -683,10 +974,7 @@ def pick(
                 rank=None,
                 motors=label,
                 stages=names,
-                choice=tuple(
-                    (option.name, count, None if option.file is None else str(option.file))
-                    for option, count in combo
-                ),
+                choice=_choice(combo),
                 total_impulse=impulse,
                 impulse_class=impulse_class(impulse),
                 liftoff_mass=candidate.vehicle.liftoff_mass,
@@ -716,4 +1004,5 @@ def pick(
         rows=Rows(_rank(flown, criterion, target)),
         pruned_rows=Rows(pruned),
         compute_time=_time.perf_counter() - started,
+        needed_apogee=_needed_apogee(mission, target),
     )

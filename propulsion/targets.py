@@ -77,6 +77,12 @@ def _circular_orbit(
     allowance = fields["loss_allowance"]
     terms = [("circular orbit speed", speed), ("loss allowance", allowance)]
     formula = "sqrt(GM / r) + loss allowance"
+    if latitude is not None and "inclination" in fields:
+        # the inclination sets the azimuth flown (propulsion.guidance); unreachable
+        # inclinations raise InclinationError (a ValueError)
+        from propulsion.guidance import launch_azimuth
+
+        azimuth = launch_azimuth(fields["inclination"], latitude, speed).flown
     if latitude is not None and azimuth is not None:
         rotation = float(orbits.earth_rotation_speed(latitude, azimuth))
         terms.append(("Earth rotation along azimuth", -rotation))
@@ -141,7 +147,7 @@ TARGET_KINDS: dict[str, TargetKind] = {
             "reach a circular orbit (with Earth's rotation when the launch site gives "
             "latitude and azimuth)",
             {"altitude": "length", "loss_allowance": "speed"},
-            {"tolerance": "length"},
+            {"tolerance": "length", "inclination": "angle"},
             _circular_orbit,
         ),
         TargetKind(

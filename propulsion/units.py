@@ -63,6 +63,11 @@ DIMENSIONS: dict[str, str] = {
     "density": "kg/m**3",
     "angle": "rad",
     "dimensionless": "dimensionless",
+    # a temperature ("35 degC" is 308.15 K: offset units convert affinely), and a
+    # temperature difference ("+15 K", "-20 delta_degC"; pint refuses "15 degC" here, a
+    # point on a scale and not a difference)
+    "temperature": "K",
+    "temperature_difference": "delta_degC",
 }
 
 

@@ -43,6 +43,14 @@ class Motor:
         Motor diameter [m], where the file states it.
     source : str
         The file the curve was read from.
+    exit_area : float
+        Nozzle exit area [m^2] where the file gives the nozzle exit diameter; 0 otherwise
+        (the curve is then flown as measured, whatever the ambient pressure).
+    test_pressure : float
+        Ambient pressure the curve was measured at [Pa] (default: sea-level standard,
+        101 325 Pa). With an exit area, the flight corrects the thrust to the ambient
+        pressure: F = F_test + (p_test - p_a) A_e (G. P. Sutton and O. Biblarz, Rocket
+        Propulsion Elements, 9th ed., 2017, chapter 3, the thrust equation).
     """
 
     name: str
@@ -53,6 +61,8 @@ class Motor:
     propellant_family: str | None = None
     diameter: float | None = None
     source: str = ""
+    exit_area: float = 0.0
+    test_pressure: float = USSA76_SEA_LEVEL_PRESSURE
 
     @cached_property
     def total_impulse(self) -> float:

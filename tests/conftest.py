@@ -35,3 +35,16 @@ def hobby_doc() -> dict[str, Any]:
 def orbital_doc() -> dict[str, Any]:
     """missions/orbital_launcher.toml as the dictionary tomllib gives."""
     return tomllib.loads((MISSIONS_DIR / "orbital_launcher.toml").read_text(encoding="utf-8"))
+
+
+def open_loop(doc: dict[str, Any]) -> dict[str, Any]:
+    """The orbital example as it flew before guidance to the orbit (in place, returned):
+    due east with a fixed 15 deg pitch kick and the plain linear-tangent law, 350 kg,
+    perigee and apogee judged within 200 +- 40 km. The tests of open-loop behaviour (an
+    orbit's shape left to the kick) fly this vehicle."""
+    doc["flight"].update(guidance="linear_tangent", pitch_kick_angle="15 deg")
+    doc["launch"]["azimuth"] = "90 deg"
+    doc["leg"][0].pop("inclination", None)
+    doc["leg"][0]["tolerance"] = "40 km"
+    doc["vehicle"]["payload"] = "350 kg"
+    return doc

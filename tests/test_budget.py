@@ -101,10 +101,25 @@ def test_apogee_requirement_is_energy_conservation() -> None:
 def test_orbit_requirement_with_earth_rotation() -> None:
     # Circular speed sqrt(GM/r) and the eastward surface speed omega R cos(latitude)
     # (Curtis, 3rd ed., eq. 2.63; section 11.2 on launch from a rotating Earth).
-    result = budget(parse_mission(_load("orbital_launcher.toml")))
+    doc = _load("orbital_launcher.toml")
+    del doc["leg"][0]["inclination"]
+    doc["launch"]["azimuth"] = "90 deg"
+    result = budget(parse_mission(doc))
     ascent = result.legs[0]
-    expected = math.sqrt(MU / (RE + 200e3)) + 1500.0 - OMEGA * RE * math.cos(math.radians(38))
+    speed = math.sqrt(MU / (RE + 200e3))
+    expected = speed + 1500.0 - OMEGA * RE * math.cos(math.radians(38))
     assert ascent.required_delta_v == pytest.approx(expected, rel=1e-12)
+    # The shipped example names a 40 deg inclination instead: the azimuth flown is the
+    # velocity triangle's, sin(beta) = cos(i) / cos(latitude) inertial (Curtis, 3rd ed.,
+    # launch azimuth), less the ground's eastward speed; the credit is that speed along it.
+    latitude, inclination = math.radians(38), math.radians(40)
+    beta = math.asin(math.cos(inclination) / math.cos(latitude))
+    ground = OMEGA * RE * math.cos(latitude)
+    flown = math.atan2(speed * math.sin(beta) - ground, speed * math.cos(beta))
+    shipped = budget(parse_mission(_load("orbital_launcher.toml"))).legs[0]
+    assert shipped.required_delta_v == pytest.approx(
+        speed + 1500.0 - ground * math.sin(flown), rel=1e-12
+    )
 
 
 def test_legs_sum_to_the_stack_ideal_delta_v() -> None:

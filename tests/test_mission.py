@@ -571,7 +571,7 @@ def test_dictionary_with_non_text_key(hobby_doc: dict[str, Any]) -> None:
         ("0,0\n0.5,0\n1.1,0\n", "total impulse is zero"),
         ("0,5\n", "at least 2 points"),
         ("0,0\n0.5,abc\n", "'abc' is not a number"),
-        ("0,0\n0.5,nan\n1,0\n", "not finite"),
+        ("0,0\n0.5,nan\n1,0\n", "is not a number"),
     ],
     ids=[
         "repeated-time",

@@ -13,6 +13,7 @@ from __future__ import annotations
 import copy
 import json
 import re
+import shutil
 import tomllib
 from collections.abc import Iterator
 from pathlib import Path
@@ -200,9 +201,13 @@ def _check(document: Any) -> None:
 
 @pytest.fixture(scope="module", autouse=True)
 def _in_empty_dir(tmp_path_factory: pytest.TempPathFactory) -> Iterator[None]:
-    """Work in an empty folder, so random relative file names find nothing to read."""
+    """Work in a folder holding only the examples' own data files (their motor curves and
+    soundings), so random relative file names find nothing else to read."""
+    folder = tmp_path_factory.mktemp("fuzz")
+    for data in MISSIONS_DIR.glob("*.csv"):
+        shutil.copy(data, folder / data.name)
     with pytest.MonkeyPatch.context() as patch:
-        patch.chdir(tmp_path_factory.mktemp("fuzz"))
+        patch.chdir(folder)
         yield
 
 

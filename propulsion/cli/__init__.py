@@ -21,6 +21,7 @@ from propulsion.cli import budget as _budget
 from propulsion.cli import check as _check
 from propulsion.cli import compare as _compare
 from propulsion.cli import data as _data
+from propulsion.cli import firing as _firing
 from propulsion.cli import fly as _fly
 from propulsion.cli import pick as _pick
 from propulsion.cli import report as _report
@@ -74,6 +75,7 @@ app.command("report")(_report.report_command)
 app.command("sweep")(_sweep.sweep_command)
 app.command("check")(_check.check_command)
 app.command("data")(_data.data_command)
+app.command("firing")(_firing.firing_command)
 
 
 def entry() -> None:

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import math
 import re
+from collections.abc import Iterable, Sequence
 from enum import StrEnum
 from pathlib import Path
 from typing import TYPE_CHECKING
@@ -22,8 +23,11 @@ from propulsion.cli.common import (
 
 if TYPE_CHECKING:
     from rich.console import RenderableType
+    from rich.text import Text
 
-    from propulsion.selection import PickResult
+    from propulsion.selection import PickResult, ShortStack
+
+    Choice = tuple[tuple[str, int, str | None], ...]
     from propulsion.units import DisplayUnits
 
 __all__ = ["Rank", "parse_motors", "parse_stage_counts", "pick_command", "pick_view"]
@@ -72,25 +76,45 @@ def parse_stage_counts(text: str) -> tuple[int, ...]:
     return tuple(range(low, high + 1))
 
 
-def parse_motors(text: str | None) -> list[str] | Path | None:
-    """Read ``--motors``: an existing folder of curves, or a comma-separated list of names.
+def parse_motors(text: str | Sequence[str] | None) -> list[str | Path] | Path | None:
+    """Read ``--motors``: shipped names, curve files and folders, comma-separated, repeated.
+
+    Each occurrence of the option is split at commas, unless the whole text names an
+    existing file or folder (whose name may hold a comma). Each entry is read with
+    :func:`propulsion.selection.motor_item`: a shipped motor's name stays a name; a path
+    separator, a ``.csv`` ending or an existing file or folder makes a path.
 
     Parameters
     ----------
-    text : str or None
-        The option's text; None for every shipped motor.
+    text : str, sequence of str, or None
+        The option's text, or its texts when repeated; None (or no text) for every
+        shipped motor.
 
     Returns
     -------
-    list of str, Path or None
-        Motor names, a folder, or None.
+    list of str and Path, Path or None
+        The entries in order (names as str, files and folders as Path); one file or folder
+        alone as a Path; None when the option was not given.
     """
+    from propulsion.selection import motor_item
+
     if text is None:
         return None
-    path = Path(text)
-    if path.is_dir() or ("," not in text and ("/" in text or "\\" in text)):
-        return path
-    return [name.strip() for name in text.split(",") if name.strip()]
+    texts = [text] if isinstance(text, str) else list(text)
+    if not texts:
+        return None
+    entries: list[str | Path] = []
+    for part in texts:
+        path = Path(part)
+        try:
+            whole = path.exists()
+        except (OSError, ValueError):  # a name the file system refuses (too long)
+            whole = False
+        pieces = [part] if whole else part.split(",")
+        entries.extend(motor_item(piece) for piece in pieces if piece.strip())
+    if len(entries) == 1 and isinstance(entries[0], Path):
+        return entries[0]
+    return entries
 
 
 def pick_view(result: PickResult, units: DisplayUnits, top: int = 15) -> RenderableType:
@@ -166,6 +190,12 @@ def pick_view(result: PickResult, units: DisplayUnits, top: int = 15) -> Rendera
         )
     pruned = result.pruned
     target = f"{_q(result.target_apogee, 'length', units)} {length}"
+    asked = result.needed_apogee - result.target_apogee
+    with_margin = ""
+    if math.isfinite(asked) and asked > 0:
+        with_margin = (
+            f" with the {_q(asked, 'length', units)} {length} target margin of [margins.flight]"
+        )
     summary = Text()
     summary.append(
         f"{result.enumerated} combination(s) fit the airframe; "
@@ -173,17 +203,20 @@ def pick_view(result: PickResult, units: DisplayUnits, top: int = 15) -> Rendera
         f"({pruned['delta_v']} below the drag-free "
         f"{_q(result.drag_free_delta_v, 'speed', units)} {units.label('speed')}, "
         f"{pruned['thrust_to_weight']} with liftoff T/W below 1); "
-        f"{result.flown} flown; {result.meeting} meet the {target} apogee."
+        f"{result.flown} flown; {result.meeting} meet the {target} apogee{with_margin}."
     )
     notes = Text(
         "Flown as `propulsion fly --no-margin` does; 'meets' means the apogee reaches the "
-        "target (the mission's required delta-v margin is not checked). Mass: at liftoff. "
-        "T/W: liftoff thrust-to-weight (average thrust). Mach: the highest. ign: an upper "
-        "stage lights descending, too slow to steer or tilted over 20 deg (ranked last). "
-        "!n: plausibility warnings (listed by --json). Clusters need 2, 2.155 and 2.414 "
-        "motor diameters for 2, 3 and 4 motors.",
+        "target, with the target margin [margins.flight] asks for when it judges the "
+        "target (its other margins and the budget's margin are not checked). Margin: "
+        "apogee - target. Mass: at liftoff. T/W: liftoff thrust-to-weight (average "
+        "thrust of the first stage). Mach: the highest. ign: an upper stage lights "
+        "descending, too slow to steer or tilted over 20 deg (ranked last). !n: "
+        "plausibility warnings (listed by --json). Clusters need 2, 2.155 and 2.414 motor "
+        "diameters for 2, 3 and 4 motors.",
         style="dim",
     )
+    closest = result.closest()
     best = result.best
     if best is not None:
         verdict_line = verdict_text(
@@ -193,39 +226,101 @@ def pick_view(result: PickResult, units: DisplayUnits, top: int = 15) -> Rendera
             f"({best.impulse_class}), apogee {_q(best.apogee, 'length', units)} {length}.",
         )
     else:
-        closest = result.rows[0] if result.rows else None
-        text = f"No stack reaches the {target} apogee"
-        if closest is not None and math.isfinite(closest.apogee):
-            text += (
-                f"; the closest is {closest.motors} at "
-                f"{_q(closest.apogee, 'length', units)} {length}"
-            )
+        text = f"No stack reaches the {target} apogee{with_margin}"
+        if closest and math.isfinite(closest[0].shortfall):
+            first = closest[0]
+            short = f"{_q(first.shortfall, 'length', units)} {length} short"
+            if not first.flown:
+                short = "at least " + short
+            text += f"; the closest, {first.motors}, is {short}"
         verdict_line = verdict_text(False, text + ".")
     sheet: RenderableType = table
     if not shown:
         sheet = Text("No stack was flown: the ideal budget ruled out every combination.")
-    return Group(
-        mission_summary(result.mission),
-        sheet,
-        summary,
-        notes,
-        Text(),
-        verdict_line,
-        caution_panel(),
+    parts: list[RenderableType] = [mission_summary(result.mission), sheet, summary, notes]
+    files = _own_files([*(row.choice for row in shown), *(entry.choice for entry in closest)])
+    if files:
+        parts.append(files)
+    if closest:
+        parts.extend([Text(), _closest_table(result, closest, units)])
+    parts.extend([Text(), verdict_line, caution_panel()])
+    return Group(*parts)
+
+
+def _own_files(choices: Iterable[Choice]) -> Text | None:
+    """The curve file of each of the user's motors in these choices, or None."""
+    from rich.text import Text
+
+    files: dict[str, str] = {}
+    for choice in choices:
+        for name, _count, file in choice:
+            if file is not None:
+                files.setdefault(name, file)
+    if not files:
+        return None
+    return Text(
+        "Your motors: " + "; ".join(f"{name} = {file}" for name, file in files.items()),
+        style="dim",
     )
+
+
+def _closest_table(
+    result: PickResult, closest: Sequence[ShortStack], units: DisplayUnits
+) -> RenderableType:
+    """The stacks that come closest to a target none reaches, and how far each falls short."""
+    from rich.console import Group
+    from rich.text import Text
+
+    from propulsion.report.tables import _head, _q, _table
+
+    needed = f"{_q(result.needed_apogee, 'length', units)} {units.label('length')}"
+    table = _table(f"Closest stacks, best first ({needed} needed)")
+    table.add_column("#", justify="right", no_wrap=True)
+    table.add_column("Motors per stage", no_wrap=True)
+    table.add_column(_head("Apogee", "length", units), justify="right", min_width=6)
+    table.add_column(_head("Short by", "length", units), justify="right", min_width=8)
+    table.add_column(_head("Margin", "length", units), justify="right", min_width=7)
+    table.add_column("From")
+    for place, entry in enumerate(closest, start=1):
+        apogee = _q(entry.apogee, "length", units)
+        short = _q(entry.shortfall, "length", units)
+        margin = _q(entry.target_margin, "length", units)
+        if entry.how == "flown":
+            source = "flight"
+        elif entry.how == "delta_v":
+            apogee, short, margin = f"≤ {apogee}", f"≥ {short}", f"≤ {margin}"
+            source = "bound"
+        else:
+            source = f"no liftoff, T/W {_q(entry.liftoff_thrust_to_weight, '', units, 3)}"
+        table.add_row(str(place), entry.motors.replace("; ", "\n"), apogee, short, margin, source)
+    note = Text(
+        "Short by: the needed apogee - the apogee. Margin: apogee - target. flight: as "
+        "flown. bound: pruned, not flown; a drag-free climb on its ideal delta-v reaches "
+        "the apogee shown at most, so it falls short by at least that much.",
+        style="dim",
+    )
+    return Group(table, note)
 
 
 def pick_command(
     mission_file: Path = typer.Argument(
         ..., help="Mission file (TOML).", show_default=False, metavar="MISSION.toml"
     ),
-    motors: str | None = typer.Option(
+    motors: list[str] | None = typer.Option(
         None,
         "--motors",
         "-m",
-        help="A folder of thrust-curve CSV files, or shipped motor names separated by commas "
-        "(default: every shipped motor).",
+        help="Shipped motor names, your thrust-curve CSV files and folders of them, "
+        "separated by commas or with the option repeated (default: every shipped motor). "
+        "With files or folders alone, every shipped motor is tried beside them; shipped "
+        "names choose which.",
         show_default=False,
+    ),
+    no_library: bool = typer.Option(
+        False,
+        "--no-library",
+        help="Leave out the shipped motors that --motors does not name: only your files "
+        "and folders.",
     ),
     stages: str | None = typer.Option(
         None,
@@ -258,6 +353,8 @@ def pick_command(
 
     Example: propulsion pick missions/two_stage_competition.toml --stages 1..2 --max-cluster 2
 
+    Example: propulsion pick missions/hobby_single_stage.toml --motors my_motors/,pd-H113
+
     Exit code 0 when at least one stack meets the target, 1 when none does, 2 on bad input.
     """
     from rich.progress import (
@@ -274,6 +371,12 @@ def pick_command(
 
     with guard():
         mission = load_mission(mission_file)
+        chosen = parse_motors(motors)
+        if no_library and chosen is None:
+            raise PickError(
+                "--no-library leaves no motor to try",
+                "your curve files or folders with --motors (my_curve.csv, my_motors/)",
+            )
         counts = parse_stage_counts(stages) if stages is not None else None
         target = None
         if apogee is not None:
@@ -299,7 +402,8 @@ def pick_command(
 
             result = pick(
                 mission,
-                motors=parse_motors(motors),
+                motors=chosen,
+                library=not no_library,
                 stage_counts=counts,
                 max_cluster=max_cluster,
                 criterion=rank.value,

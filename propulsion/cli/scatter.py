@@ -57,6 +57,13 @@ def scatter_command(
         "report the margin this share of the flights still has, e.g. '99.7 %' (the "
         "three-sigma flight-performance reserve).",
     ),
+    footprint: bool = typer.Option(
+        False,
+        "--footprint",
+        help="Fly every sample on to the ground (no recovery device), and every dropped "
+        "stage down too, and show where they come down: points, 1-sigma and 3-sigma "
+        "ellipses, the farthest from the pad.",
+    ),
     force: bool = typer.Option(False, "--force", help="Overwrite output files that exist."),
     units: UnitSystem = UNITS_OPTION,
     json_output: bool = JSON_OPTION,
@@ -130,6 +137,7 @@ def scatter_command(
                     on_chunk=stream,
                     progress=lambda done, total: progress.update(task, completed=done),
                     reserve=probability,
+                    footprint=footprint,
                 )
         except BaseException:
             if writer is not None:

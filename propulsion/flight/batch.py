@@ -10,13 +10,18 @@ from __future__ import annotations
 import os
 import time
 from concurrent.futures import ThreadPoolExecutor
+from dataclasses import replace
 from typing import Any
 
 import numpy as np
+import numpy.typing as npt
 
 from propulsion.flight import layout
 from propulsion.flight.result import Outcome, Trajectory
 from propulsion.flight.state import FlightCore
+from propulsion.flight.steering import SteeringSolution
+
+FloatArray = npt.NDArray[np.float64]
 
 __all__ = ["available_threads", "simulate"]
 
@@ -68,6 +73,20 @@ def simulate(
     """
     from propulsion.flight import kernel
 
+    solution = None
+    if core.guidance == "orbit" and core.orbit_target is not None and core.n:
+        # guided to an orbit: solve every sample's steering first (shooting on this very
+        # kernel), then fly the solved steering
+        from propulsion.flight.steering import solve_steering
+
+        solution = solve_steering(core, core.orbit_target, rtol=min(rtol, 1e-9), threads=threads)
+        core = replace(
+            core,
+            guide_a=solution.guide_a,
+            guide_b=solution.guide_b,
+            azimuth=solution.azimuth,
+            cutoff_energy=np.full(core.n, core.orbit_target.energy),
+        )
     params, stage_params, settings, tables = core.pack()
     n = core.n
     events = layout.event_count(core.stages)
@@ -133,4 +152,22 @@ def simulate(
         trajectory=trajectory,
         compute_time=time.perf_counter() - started,
         threads=workers,
+        extra=_steering_extra(solution),
     )
+
+
+def _steering_extra(solution: SteeringSolution | None) -> dict[str, FloatArray]:
+    """The solved steering as the outcome's extra arrays (empty without guidance)."""
+    if solution is None:
+        return {}
+    return {
+        "guide_a": solution.guide_a,
+        "guide_b": solution.guide_b,
+        "guide_azimuth": solution.azimuth,
+        "guide_converged": solution.converged.astype(float),
+        "guide_radius_error": solution.radius_error,
+        "guide_radial_velocity": solution.radial_velocity,
+        "guide_inclination_error": solution.inclination_error,
+        "guide_iterations": np.full(solution.guide_a.size, float(solution.iterations)),
+        "guide_flights": np.full(solution.guide_a.size, float(solution.flights)),
+    }

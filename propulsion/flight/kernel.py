@@ -126,7 +126,8 @@ from propulsion.flight.layout import (
     F_SITE,
     F_UP,
     F_WIND_TURN,
-    GUIDE_LINEAR_TANGENT,
+    GUIDE_GRAVITY_TURN,
+    GUIDE_ORBIT,
     NA,
     NF,
     NY,
@@ -135,6 +136,8 @@ from propulsion.flight.layout import (
     P_CD_SCALE,
     P_CUTOFF_ENERGY,
     P_ELEVATION,
+    P_GUIDE_A,
+    P_GUIDE_B,
     P_HOLD_SPEED,
     P_KICK_ANGLE,
     P_KICK_DURATION,
@@ -162,6 +165,7 @@ from propulsion.flight.layout import (
     S_PROPELLANT,
     S_SEPARATION_DELAY,
     S_STEERED,
+    S_TEST_PRESSURE,
     S_THRUST_VACUUM,
     S_TIME_SCALE,
     S_USABLE,
@@ -502,6 +506,13 @@ def _thrust(t: float, z: np.ndarray, s: np.ndarray, tb: Tables, pressure: float)
             ) * (tb.curve_thrust[b] - tb.curve_thrust[a])
         force = curve * row[S_IMPULSE_SCALE] / scale_t
         flow = curve / scale_t * row[S_USABLE] / row[S_CURVE_IMPULSE]
+        area = row[S_EXIT_AREA]
+        if area > 0.0 and curve > 0.0:
+            # the curve was measured at the test pressure: the thrust equation moves it to
+            # the ambient pressure, F = F_test + (p_test - p_a) A_e [Sutton & Biblarz, ch. 3]
+            vacuum = force + row[S_TEST_PRESSURE] * area
+            thrust = vacuum - pressure * area
+            return (thrust if thrust > 0.0 else 0.0), vacuum, flow
         return force, force, flow
     vacuum = row[S_THRUST_VACUUM]
     force = vacuum - pressure * row[S_EXIT_AREA]
@@ -519,9 +530,10 @@ def _direction(  # type: ignore[no-untyped-def]
     ``ux, uy, uz`` is the local vertical. On the rail or the pad: along the rail. During a
     pitch programme: the launch direction in the local frame, tilted by the kick as it
     progresses. A stage steered by the linear-tangent law: tan(pitch) = tan(pitch at
-    ignition) (1 - t / burn time), in the plane of the inertial velocity (no yaw
-    steering). Otherwise along the air-relative velocity, unless the air speed is below the
-    hold threshold: then the direction last flown is held.
+    ignition) (1 - t / burn time), or under guidance "orbit" tan(pitch) = A + B t / burn
+    time with A, B solved for the target orbit (t from its ignition); in the plane of the
+    inertial velocity (no yaw steering). Otherwise along the air-relative velocity, unless
+    the air speed is below the hold threshold: then the direction last flown is held.
     """
     omega_t = p[P_OMEGA] * t
     cw, sw = 1.0, 0.0
@@ -544,10 +556,14 @@ def _direction(  # type: ignore[no-untyped-def]
         hx, hy, hz = ny * uz - nz * uy, nz * ux - nx * uz, nx * uy - ny * ux
         angle = p[P_ELEVATION] - p[P_KICK_ANGLE] * progress
         steered = True
-    elif c[C_GUIDANCE] == GUIDE_LINEAR_TANGENT and s[k, S_STEERED] > 0.5 and z[Z_PHASE] == BURNING:
+    elif c[C_GUIDANCE] != GUIDE_GRAVITY_TURN and s[k, S_STEERED] > 0.5 and z[Z_PHASE] == BURNING:
         tau = (t - z[Z_IGNITION_TIME]) / z[Z_BURN_TIME]
         tau = min(max(tau, 0.0), 1.0)
-        angle = math.atan(math.tan(z[Z_GUIDE_ANGLE]) * (1.0 - tau))
+        if c[C_GUIDANCE] == GUIDE_ORBIT and math.isfinite(p[P_GUIDE_A]):
+            # the parameters solved for the target orbit (propulsion.guidance)
+            angle = math.atan(p[P_GUIDE_A] + p[P_GUIDE_B] * tau)
+        else:
+            angle = math.atan(math.tan(z[Z_GUIDE_ANGLE]) * (1.0 - tau))
         # in the plane of the inertial velocity: the horizontal part of the velocity
         vertical = vx * ux + vy * uy + vz * uz
         hx, hy, hz = vx - vertical * ux, vy - vertical * uy, vz - vertical * uz
@@ -930,7 +946,7 @@ def _watch(kind: int, t: float, z: np.ndarray, p: np.ndarray, s: np.ndarray, c: 
     if kind == K_HOLD:
         if constrained or _kick_active(t, z, p):
             return 0
-        steered = c[C_GUIDANCE] == GUIDE_LINEAR_TANGENT and s[k, S_STEERED] > 0.5
+        steered = c[C_GUIDANCE] != GUIDE_GRAVITY_TURN and s[k, S_STEERED] > 0.5
         if steered and z[Z_PHASE] == BURNING:
             return 0
         return 1 if z[Z_HOLD] > 0.5 else -1

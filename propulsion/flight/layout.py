@@ -72,7 +72,9 @@ P_HOLD_SPEED = 16  # below this air speed the thrust holds its direction [m/s]
 P_MAX_TIME = 17  # the flight stops at this time [s]
 P_START_TIME = 18  # airborne start: time [s]
 P_START_STATE = 19  # airborne start: position (3) and velocity (3), frame of the state
-NP = 25
+P_GUIDE_A = 25  # guidance "orbit": tan(pitch) = A + B tau of the steered stage (NaN: unsolved)
+P_GUIDE_B = 26  # ...tau being the time since its ignition over its burn time
+NP = 27
 
 # --- per-stage parameters: S[n, s, NS] --------------------------------------------------
 S_INERT = 0  # inert mass, motor cases included [kg]
@@ -84,19 +86,20 @@ S_IGNITION_DELAY = 5  # separation below to ignition [s]
 S_IMPULSE_SCALE = 6  # factor on a motor curve's thrust
 S_TIME_SCALE = 7  # factor on a motor curve's time
 S_THRUST_VACUUM = 8  # engine cluster vacuum thrust [N]
-S_EXIT_AREA = 9  # engine cluster nozzle exit area [m^2]
+S_EXIT_AREA = 9  # engine cluster nozzle exit area [m^2]; a motor cluster's, when its file gives it
 S_MASS_FLOW = 10  # engine cluster mass flow [kg/s]
 S_IS_MOTOR = 11  # 1: thrust from the curve; 0: an engine
 S_CURVE_IMPULSE = 12  # total impulse of the (unscaled) cluster curve [N s]
 S_STEERED = 13  # 1: the guidance law steers this stage while it burns
-NS = 14
+S_TEST_PRESSURE = 14  # ambient pressure a motor's curve was measured at [Pa]
+NS = 15
 
 # --- settings shared by a batch: C[NC] (integers) ----------------------------------------
 C_EARTH = 0  # EARTH_FLAT, EARTH_ROUND, EARTH_ELLIPSOID
 C_STOP = 1  # STOP_APOGEE, STOP_GROUND
 C_AIRBORNE = 2  # 1: start in free flight from P_START_*
 C_STAGES = 3  # number of stages
-C_GUIDANCE = 4  # GUIDE_GRAVITY_TURN, GUIDE_LINEAR_TANGENT
+C_GUIDANCE = 4  # GUIDE_GRAVITY_TURN, GUIDE_LINEAR_TANGENT, GUIDE_ORBIT
 NC = 5
 
 EARTH_FLAT = 0
@@ -106,6 +109,7 @@ STOP_APOGEE = 0
 STOP_GROUND = 1
 GUIDE_GRAVITY_TURN = 0
 GUIDE_LINEAR_TANGENT = 1
+GUIDE_ORBIT = 2  # linear-tangent steering with parameters solved for a target orbit
 
 # --- discrete state of one flight: Z[NZ] (kept as floats) -------------------------------
 Z_STAGE = 0  # lowest attached stage

@@ -5,8 +5,8 @@ location and table handling. This module integrates the same model for ONE sampl
 :class:`~propulsion.flight.state.FlightCore` a different way: a plain Python right-hand
 side with scalar floats and :mod:`math`, handed to :func:`scipy.integrate.solve_ivp`
 (Dormand–Prince 8(5,3) by default [1]) at tight tolerances. It shares no code with the
-kernel: only the array layout (:mod:`propulsion.flight.layout`), the constants and the
-defining layer table of the atmosphere.
+kernel: only the array layout (:mod:`propulsion.flight.layout`), the constants and, of
+the core's layer table of the air, the layer tops, temperatures and one pressure.
 
 The flight is integrated piecewise. Each ``solve_ivp`` call covers a *stretch* in which
 nothing discrete changes: it ends at the next scheduled time (ignition, burnout,
@@ -23,7 +23,8 @@ The model (SI throughout):
   radius with inverse-square gravity, or the WGS 84 ellipsoid with J2 gravity [2], turning
   at the flight's rotation rate; or a flat Earth (east, north, up) with uniform standard
   gravity;
-* the U.S. Standard Atmosphere 1976 [3] up to 86 km, turning with the Earth, plus a wind
+* the core's air up to 86 km (the U.S. Standard Atmosphere 1976 [3] on the standard
+  day, else the day's air of :mod:`propulsion.weather`), turning with the Earth, plus a wind
   profile (piecewise linear in height above the site, east and north components);
 * drag ``0.5 rho |v_air| Cd(Mach) A`` against the air-relative velocity;
 * thrust from a piecewise-linear motor curve (scaled in impulse and time) or a constant
@@ -59,7 +60,7 @@ import numpy.typing as npt
 from scipy.integrate import solve_ivp
 from scipy.optimize import minimize_scalar
 
-from propulsion.atmosphere import TOP_ALTITUDE, layer_table
+from propulsion.atmosphere import TOP_ALTITUDE
 from propulsion.constants import (
     EARTH_EQUATORIAL_RADIUS,
     EARTH_FLATTENING,
@@ -70,8 +71,6 @@ from propulsion.constants import (
     USSA76_GAMMA,
     USSA76_GAS_CONSTANT,
     USSA76_MOLAR_MASS,
-    USSA76_SEA_LEVEL_PRESSURE,
-    USSA76_SEA_LEVEL_TEMPERATURE,
 )
 from propulsion.flight import layout
 from propulsion.flight.state import FlightCore
@@ -143,24 +142,30 @@ def _on_piece(x: float, xs: list[float], ys: list[float], count: int) -> float:
 
 
 class _Atmosphere:
-    """U.S. Standard Atmosphere 1976 [3] by layers of constant temperature gradient.
+    """The flight's air by layers of constant temperature gradient.
 
-    Only the layer tops [m'] and gradients [K/m'] are taken from
-    :func:`propulsion.atmosphere.layer_table`; base temperatures and pressures are built
-    here from sea level up with the standard's layer equations:
+    From the core's layer table (the day's air of :mod:`propulsion.weather`; the U.S.
+    Standard Atmosphere 1976 [3] on the standard day) only the layer tops [m'], each
+    layer's temperature line T = A + L H [K] and one pressure are taken: the first layer's
+    pressure at its top [Pa]. The first layer is reckoned from its top; every base
+    pressure above is built here from that one with the standard's layer equations:
     ``P = P_b (T_b / T)^(g0 M0 / (R* L_b))`` (gradient layer) or
-    ``P = P_b exp(-g0 M0 (H - H_b) / (R* T_b))`` (isothermal layer).
+    ``P = P_b exp(-g0 M0 (H - H_b) / (R* T_b))`` (isothermal layer). A layer's base
+    temperature is its own line's (the day's air may jump in temperature between
+    layers; the pressure does not).
     """
 
-    def __init__(self) -> None:
-        tops, rows = layer_table()
+    def __init__(self, tops: FloatArray, rows: FloatArray) -> None:
         self.tops = [float(top) for top in tops]
         self.hydrostatic = STANDARD_GRAVITY * USSA76_MOLAR_MASS / USSA76_GAS_CONSTANT  # [K/m']
         self.layers: list[tuple[float, float, float, float]] = []  # H_b, T_b, P_b, L_b
-        base, temperature, pressure = 0.0, USSA76_SEA_LEVEL_TEMPERATURE, USSA76_SEA_LEVEL_PRESSURE
+        base = self.tops[0]
+        a, lapse, log_constant, isothermal, exponent = (float(v) for v in rows[:, 0])
+        temperature = a + lapse * base
+        pressure = math.exp(log_constant + isothermal * base - exponent * math.log(temperature))
         for index, top in enumerate(self.tops):
-            lapse = float(rows[1, index])
-            self.layers.append((base, temperature, pressure, lapse))
+            a, lapse = float(rows[0, index]), float(rows[1, index])
+            self.layers.append((base, a + lapse * base, pressure, lapse))
             temperature, pressure = self._layer(index, top)
             base = top
         self.top_temperature = temperature
@@ -309,16 +314,17 @@ class _Flight:
             "mass_initial", "site_altitude", "rail_length", "elevation", "azimuth", "latitude",
             "omega", "cd_scale", "wind_scale", "wind_turn", "wind_offset", "kick_angle",
             "kick_time", "kick_speed", "kick_duration", "cutoff_energy", "hold_speed",
-            "max_time", "start_time",
+            "max_time", "start_time", "guide_a", "guide_b",
         ):  # fmt: skip
             setattr(self, name, one(name))
         self.start_state = [float(x) for x in core.start_state[:, i]]
         for name in (
             "inert", "propellant", "usable", "area", "separation_delay", "ignition_delay",
             "impulse_scale", "time_scale", "thrust_vacuum", "exit_area", "mass_flow",
+            "test_pressure",
         ):  # fmt: skip
             setattr(self, name, per_stage(name))
-        self.atmosphere = _Atmosphere()
+        self.atmosphere = _Atmosphere(core.layer_tops, core.layer_rows)
         self._site()
 
     # these are set by setattr above; declared for the type checker
@@ -334,6 +340,8 @@ class _Flight:
     wind_turn: float
     wind_offset: float
     kick_angle: float
+    guide_a: float
+    guide_b: float
     kick_time: float
     kick_speed: float
     kick_duration: float
@@ -352,6 +360,7 @@ class _Flight:
     thrust_vacuum: list[float]
     exit_area: list[float]
     mass_flow: list[float]
+    test_pressure: list[float]
 
     # --- geometry ------------------------------------------------------------------------
     def _site(self) -> None:
@@ -455,6 +464,10 @@ class _Flight:
             force = self.impulse_scale[k] * curve / scale
             # the propellant burns in proportion to the curve's impulse
             flow = self.usable[k] * (curve / scale) / self.curve_impulse[k]
+            if self.exit_area[k] > 0.0 and curve > 0.0:
+                # measured at the test pressure: F = F_test + (p_test - p_a) A_e
+                vacuum = force + self.test_pressure[k] * self.exit_area[k]
+                return max(vacuum - pressure * self.exit_area[k], 0.0), vacuum, flow
             return force, force, flow
         vacuum = self.thrust_vacuum[k]
         return max(vacuum - pressure * self.exit_area[k], 0.0), vacuum, self.mass_flow[k]
@@ -470,7 +483,9 @@ class _Flight:
     def _steering(self, mode: _Mode) -> bool:
         """True while the linear-tangent law steers the burning stage."""
         return (
-            self.guidance == "linear_tangent" and self.steered[mode.stage] and mode.phase == BURNING
+            self.guidance in ("linear_tangent", "orbit")
+            and self.steered[mode.stage]
+            and mode.phase == BURNING
         )
 
     def _direction(
@@ -490,7 +505,12 @@ class _Flight:
             # tan(pitch) falls linearly from its value at ignition to zero at burnout, in
             # the vertical plane of the inertial velocity (no steering out of it)
             fraction = min(max((t - mode.ignition_time) / mode.burn_time, 0.0), 1.0)
-            pitch = math.atan((1.0 - fraction) * math.tan(mode.guide_angle))
+            if self.guidance == "orbit" and math.isfinite(self.guide_a):
+                # the law with the parameters solved for the target orbit (given, not
+                # solved here: this reference checks the flight, not the solve)
+                pitch = math.atan(self.guide_a + self.guide_b * fraction)
+            else:
+                pitch = math.atan((1.0 - fraction) * math.tan(mode.guide_angle))
             v = (y[3], y[4], y[5])
             level = _combine(1.0, v, -_dot(v, up), up)
             if _norm(level) > 0.0:
@@ -761,6 +781,28 @@ def _locate(flight: _Flight, t: float, y: list[float], mode: _Mode, keep: set[st
         mode.mach_piece = _points_at_or_below(mach, flight.drag_mach[mode.stage])
 
 
+def _follow(flight: _Flight, y: list[float], mode: _Mode, rising: bool) -> None:
+    """After a layer or wind event: the other of the two height tables found from the
+    state, moved only the way the flight goes.
+
+    A layer top and a wind point may be one height (a sounding's row), reached by two
+    sums that differ in the last digit, and an event is located to a tolerance: the state
+    may lie just past the other point (its event would not fire) or just short of it (its
+    event fires next). Found again freely, each piece would undo the other's event
+    without end.
+    """
+    _, _, _, altitude = flight._local((y[0], y[1], y[2]))
+    geopotential = USSA76_EARTH_RADIUS * altitude / (USSA76_EARTH_RADIUS + altitude)
+    layer = flight.atmosphere.layer_of(geopotential)
+    top = len(flight.atmosphere.tops) - 1
+    # leaving or entering the air is the "top" event's to decide
+    layer = min(layer, top) if mode.layer <= top else mode.layer
+    wind = _points_at_or_below(altitude - flight.site_altitude, flight.wind_height)
+    pick = max if rising else min
+    mode.layer = pick(mode.layer, layer)
+    mode.wind_piece = pick(mode.wind_piece, wind)
+
+
 def _curve_points(flight: _Flight, mode: _Mode) -> list[float]:
     """Times [s] of the burning motor's curve points."""
     k = mode.stage
@@ -898,13 +940,15 @@ def _on_event(
         status = layout.STATUS_NAMES[layout.ST_ORBIT]
     elif name.startswith("layer_"):
         mode.layer += 1 if name == "layer_up" else -1
-        keep.add(_KEEP_LAYER)
+        _follow(flight, y, mode, name == "layer_up")
+        keep |= {_KEEP_LAYER, _KEEP_WIND}
     elif name.startswith("mach_"):
         mode.mach_piece += 1 if name == "mach_up" else -1
         keep.add(_KEEP_MACH)
     elif name.startswith("wind_"):
         mode.wind_piece += 1 if name == "wind_up" else -1
-        keep.add(_KEEP_WIND)
+        _follow(flight, y, mode, name == "wind_up")
+        keep |= {_KEEP_WIND, _KEEP_LAYER}
     return status, keep
 
 

@@ -19,7 +19,10 @@ import numpy.typing as npt
 from propulsion.atmosphere import layer_table
 from propulsion.constants import EARTH_EQUATORIAL_RADIUS, EARTH_MU, EARTH_ROTATION_RATE
 from propulsion.flight import layout
+from propulsion.flight.steering import OrbitTarget
+from propulsion.guidance import launch_azimuth
 from propulsion.simplify import simplify_table
+from propulsion.weather import air_table
 
 if TYPE_CHECKING:
     from propulsion.mission import Mission
@@ -70,6 +73,8 @@ _PER_SAMPLE = {
     "hold_speed": layout.P_HOLD_SPEED,
     "max_time": layout.P_MAX_TIME,
     "start_time": layout.P_START_TIME,
+    "guide_a": layout.P_GUIDE_A,
+    "guide_b": layout.P_GUIDE_B,
 }
 # Per-stage fields (shape (s, n)).
 _PER_STAGE = {
@@ -84,6 +89,7 @@ _PER_STAGE = {
     "thrust_vacuum": layout.S_THRUST_VACUUM,
     "exit_area": layout.S_EXIT_AREA,
     "mass_flow": layout.S_MASS_FLOW,
+    "test_pressure": layout.S_TEST_PRESSURE,
 }
 _EARTHS = {
     "flat": layout.EARTH_FLAT,
@@ -93,6 +99,7 @@ _EARTHS = {
 _GUIDANCE = {
     "gravity_turn": layout.GUIDE_GRAVITY_TURN,
     "linear_tangent": layout.GUIDE_LINEAR_TANGENT,
+    "orbit": layout.GUIDE_ORBIT,
 }
 
 
@@ -107,7 +114,10 @@ class FlightCore:
     ``wind_offset`` (steady wind blowing along the launch azimuth) [m/s], ``kick_angle``
     [rad], ``kick_time`` [s], ``kick_speed`` [m/s], ``kick_duration`` [s],
     ``cutoff_energy`` (orbital energy at which the last stage cuts off; NaN: burn to
-    depletion) [J/kg], ``hold_speed`` [m/s], ``max_time`` [s], ``start_time`` [s] and
+    depletion) [J/kg], ``hold_speed`` [m/s], ``max_time`` [s], ``start_time`` [s],
+    ``guide_a`` and ``guide_b`` (guidance "orbit": the steered stage flies tan(pitch) =
+    A + B tau, tau its time since ignition over its burn time; NaN: not solved, the
+    linear-tangent law is flown) and
     ``start_state`` (6, n) (an airborne start: position [m] and velocity [m/s] in the
     frame of the state).
     Per stage (shape (s, n)): ``inert``, ``propellant``, ``usable`` [kg], ``area`` [m²],
@@ -116,8 +126,10 @@ class FlightCore:
     (engines, whole cluster).
     Shared: the thrust curve of each stage's cluster (time [s], thrust [N], total impulse
     [N s]), each stage's drag curve (Mach, Cd), the wind profile (height above the site
-    [m], east and north components [m/s]), and the settings ``earth`` ("flat", "round",
-    "ellipsoid"), ``guidance``, ``stop_at_ground`` and ``airborne``.
+    [m], east and north components [m/s]), the air as the kernel's layer table
+    (``layer_tops`` [m'] and ``layer_rows`` A, L, C, K, E: :mod:`propulsion.weather`; the
+    U.S. Standard Atmosphere 1976 by default), and the settings ``earth`` ("flat",
+    "round", "ellipsoid"), ``guidance``, ``stop_at_ground`` and ``airborne``.
     """
 
     n: int
@@ -148,6 +160,8 @@ class FlightCore:
     hold_speed: FloatArray
     max_time: FloatArray
     start_time: FloatArray
+    guide_a: FloatArray
+    guide_b: FloatArray
     start_state: FloatArray
     inert: FloatArray
     propellant: FloatArray
@@ -160,11 +174,16 @@ class FlightCore:
     thrust_vacuum: FloatArray
     exit_area: FloatArray
     mass_flow: FloatArray
+    test_pressure: FloatArray
     wind_height: FloatArray = field(default_factory=lambda: np.zeros(0))
     wind_east: FloatArray = field(default_factory=lambda: np.zeros(0))
     wind_north: FloatArray = field(default_factory=lambda: np.zeros(0))
+    layer_tops: FloatArray = field(default_factory=lambda: layer_table()[0])
+    layer_rows: FloatArray = field(default_factory=lambda: layer_table()[1])
     earth: str = "round"
     guidance: str = "gravity_turn"
+    orbit_target: OrbitTarget | None = None
+    kick_chosen: bool = False
     stop_at_ground: bool = False
     airborne: bool = False
     notes: tuple[str, ...] = ()
@@ -247,7 +266,8 @@ class FlightCore:
         settings[layout.C_AIRBORNE] = int(self.airborne)
         settings[layout.C_STAGES] = s
         settings[layout.C_GUIDANCE] = _GUIDANCE[self.guidance]
-        tops, rows = layer_table()
+        tops = np.ascontiguousarray(self.layer_tops, dtype=np.float64)
+        rows = np.ascontiguousarray(self.layer_rows, dtype=np.float64)
         kept = [kinks_only(m, cd) for m, cd in zip(self.drag_mach, self.drag_cd, strict=True)]
         mach = tuple(
             np.asarray(m, dtype=float)[k] for m, k in zip(self.drag_mach, kept, strict=True)
@@ -350,7 +370,7 @@ def build_core(mission: Mission, stages: int | None = None, n: int = 1) -> Fligh
         return np.repeat(np.asarray(values, dtype=float)[:, None], n, axis=1)
 
     curve_time, curve_thrust, curve_impulse = [], [], []
-    thrust_vacuum, exit_area, mass_flow = [], [], []
+    thrust_vacuum, exit_area, mass_flow, test_pressure = [], [], [], []
     drag_mach, drag_cd, area = [], [], []
     notes: list[str] = []
     for stage in flown:
@@ -361,8 +381,11 @@ def build_core(mission: Mission, stages: int | None = None, n: int = 1) -> Fligh
             curve_thrust.append(stage.count * thrust)
             curve_impulse.append(stage.count * prop.total_impulse)
             thrust_vacuum.append(0.0)
-            exit_area.append(0.0)
+            # a motor file that gives its nozzle exit: the curve is moved from the test
+            # pressure to the ambient one in flight (the kernel's thrust equation)
+            exit_area.append(stage.count * prop.exit_area)
             mass_flow.append(0.0)
+            test_pressure.append(prop.test_pressure)
         else:
             assert isinstance(prop, Engine)
             curve_time.append(np.zeros(2))
@@ -371,6 +394,7 @@ def build_core(mission: Mission, stages: int | None = None, n: int = 1) -> Fligh
             thrust_vacuum.append(stage.count * prop.thrust_vacuum)
             exit_area.append(stage.count * prop.exit_area)
             mass_flow.append(stage.count * prop.mass_flow)
+            test_pressure.append(0.0)
         if stage.drag_curve is not None and stage.diameter is not None:
             cd = np.asarray(stage.drag_curve.drag_coefficient, dtype=float)
             table = simplify_table(
@@ -398,11 +422,25 @@ def build_core(mission: Mission, stages: int | None = None, n: int = 1) -> Fligh
     settings = mission.flight
     azimuth = launch.azimuth if launch.azimuth is not None else 0.0
     latitude = launch.latitude if launch.latitude is not None else 0.0
-    omega = EARTH_ROTATION_RATE if launch.rotation and settings.earth != "flat" else 0.0
+    rotation = launch.rotation
     cutoff = math.nan
+    orbit_target = None
     if mission.legs and mission.legs[0].target == "circular_orbit":
-        radius = EARTH_EQUATORIAL_RADIUS + mission.legs[0].fields["altitude"]
+        first = mission.legs[0].fields
+        radius = EARTH_EQUATORIAL_RADIUS + first["altitude"]
         cutoff = -EARTH_MU / (2 * radius)
+        inclination = first.get("inclination")
+        if inclination is not None and launch.latitude is not None:
+            # the azimuth that reaches the inclination over the rotating Earth (the
+            # guidance then solves it exactly); the loader checked it is reachable
+            speed = math.sqrt(EARTH_MU / radius)
+            azimuth = launch_azimuth(inclination, launch.latitude, speed).flown
+            rotation = True
+        if settings.guidance == "orbit":
+            orbit_target = OrbitTarget(radius, radius, inclination)
+    omega = EARTH_ROTATION_RATE if rotation and settings.earth != "flat" else 0.0
+    air = air_table(launch.air, launch.altitude)
+    notes.extend(air.notes)
     wind_heights, wind_east, wind_north = launch.wind_components()
     profile = simplify_table(
         np.asarray(wind_heights, dtype=float),
@@ -416,7 +454,7 @@ def build_core(mission: Mission, stages: int | None = None, n: int = 1) -> Fligh
             f"the wind profile ({profile.original_points:,} rows) is flown as "
             f"{profile.x.size:,} rows, within {profile.tolerance:.3g} m/s of every wind"
         )
-    return FlightCore(
+    core = FlightCore(
         n=n,
         stage_names=tuple(stage.name for stage in flown),
         is_motor=tuple(stage.is_motor for stage in flown),
@@ -434,8 +472,8 @@ def build_core(mission: Mission, stages: int | None = None, n: int = 1) -> Fligh
         latitude=ones * latitude,
         omega=ones * omega,
         cd_scale=ones * vehicle.drag_scale,
-        wind_scale=ones.copy(),
-        wind_turn=np.zeros(n),
+        wind_scale=ones * launch.wind_scale,
+        wind_turn=ones * launch.wind_turn,
         wind_offset=ones * launch.wind_offset,
         kick_angle=ones * settings.pitch_kick_angle,
         kick_time=ones
@@ -447,6 +485,8 @@ def build_core(mission: Mission, stages: int | None = None, n: int = 1) -> Fligh
         hold_speed=ones * settings.hold_speed,
         max_time=ones * settings.max_time,
         start_time=np.zeros(n),
+        guide_a=np.full(n, math.nan),
+        guide_b=np.full(n, math.nan),
         start_state=np.zeros((6, n)),
         inert=per_stage([stage.inert_mass for stage in flown]),
         propellant=per_stage([stage.propellant_mass for stage in flown]),
@@ -459,15 +499,26 @@ def build_core(mission: Mission, stages: int | None = None, n: int = 1) -> Fligh
         thrust_vacuum=per_stage(thrust_vacuum),
         exit_area=per_stage(exit_area),
         mass_flow=per_stage(mass_flow),
+        test_pressure=per_stage(test_pressure),
         wind_height=profile.x,
         wind_east=np.ascontiguousarray(profile.y[:, 0]),
         wind_north=np.ascontiguousarray(profile.y[:, 1]),
+        layer_tops=air.tops,
+        layer_rows=air.rows,
         earth=settings.earth,
         guidance=settings.guidance,
+        orbit_target=orbit_target,
         stop_at_ground=settings.stop_at == "ground",
         airborne=False,
         notes=tuple(notes),
     )
+    if settings.kick_chosen and orbit_target is not None:
+        # the file leaves the kick angle open: the one that leaves the most propellant
+        from propulsion.flight.steering import choose_kick
+
+        core.kick_angle[:] = choose_kick(core.take(np.zeros(1, dtype=np.int64)))
+        core.kick_chosen = True
+    return core
 
 
 def _flight_curve(

@@ -593,6 +593,8 @@ def _vehicle(page: _Page, plan: BudgetResult) -> None:
 
 
 def _budget(page: _Page, plan: BudgetResult) -> None:
+    from propulsion.report.tables import thrust_label
+
     units = page.units
     mass, speed, force = units.label("mass"), units.label("speed"), units.label("force")
     stages = plan.stages
@@ -633,8 +635,8 @@ def _budget(page: _Page, plan: BudgetResult) -> None:
         line("Payload ratio", "payload_ratio", "payload_ratio", None, "", 3),
         line("Specific impulse", "isp", "isp_s", None, "s"),
         line("Burn time", "burn_time", "burn_time_s", None, "s", 3),
-        line("Thrust at ignition", "thrust", "thrust_n", "force", force),
-        line("Thrust-to-weight at ignition", "thrust_to_weight", "thrust_to_weight", None, "", 3),
+        line(thrust_label(stages), "thrust", "thrust_n", "force", force),
+        line("Thrust-to-weight", "thrust_to_weight", "thrust_to_weight", None, "", 3),
         line(
             "Total impulse", "total_impulse", "total_impulse_n_s", "impulse", units.label("impulse")
         ),

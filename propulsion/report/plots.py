@@ -818,13 +818,17 @@ def scatter_figure(result: ScatterResult, units: DisplayUnits) -> Figure:
     mission = result.mission
     sideways = any(d.field.strip().split(".")[-1] in _SIDEWAYS_FIELDS for d in mission.dispersions)
     figure = _new_figure(
-        FIGURE_SIZE,
+        FLIGHT_FIGURE_SIZE if result.footprints else FIGURE_SIZE,
         mission,
         f"{mission.name}: {result.valid:,} dispersed flights (seed {result.seed})",
     )
     count = 3 if sideways else 2
+    # with a footprint, the map takes a second row of its own, as wide as the figure
+    grid = figure.add_gridspec(2 if result.footprints else 1, count, height_ratios=(
+        (1.0, 1.4) if result.footprints else (1.0,)
+    ))  # fmt: skip
     length = _factor("length", units)
-    ax = figure.add_subplot(1, count, 1)
+    ax = figure.add_subplot(grid[0, 0])
     _style(ax)
     apogee = result.values.get("apogee_m", np.zeros(0)) * length
     target = result.required * length if result.target == "apogee" else None
@@ -837,7 +841,7 @@ def scatter_figure(result: ScatterResult, units: DisplayUnits) -> Figure:
         f"target {_shown(result.required, 'length', units)}",
     )
     ax.set_title("Apogee", fontsize=9, color=INK, loc="left")
-    ax = figure.add_subplot(1, count, 2)
+    ax = figure.add_subplot(grid[0, 1])
     _style(ax)
     dimension = "speed" if result.target == "burnout_speed" else "length"
     margin = result.values.get("margin", np.zeros(0)) * _factor(dimension, units)
@@ -867,7 +871,7 @@ def scatter_figure(result: ScatterResult, units: DisplayUnits) -> Figure:
             fontweight="bold",
         )
     if sideways:
-        ax = figure.add_subplot(1, count, 3)
+        ax = figure.add_subplot(grid[0, 2])
         _style(ax)
         downrange = result.values.get("downrange_m", np.zeros(0)) * length
         ax.scatter(
@@ -885,7 +889,68 @@ def scatter_figure(result: ScatterResult, units: DisplayUnits) -> Figure:
         ax.set_xlabel(_label("Downrange at apogee", "length", units))
         ax.set_ylabel(_label("Apogee", "length", units))
         ax.set_title("Where the apogees lie", fontsize=9, color=INK, loc="left")
+    if result.footprints:
+        ax = figure.add_subplot(grid[1, :])
+        _style(ax)
+        _footprint_panel(ax, result, units)
     return figure
+
+
+_FOOTPRINT_MARKERS = ("^", "s", "D", "v", "o")
+
+
+def _footprint_panel(ax: Axes, result: ScatterResult, units: DisplayUnits) -> None:
+    """Where things come down: the impact points of each body (east and north of the pad),
+    their 1σ (dashed) and 3σ (solid) ellipses, the pad (a cross) and the farthest point's
+    distance as a dotted circle. gids: ``impacts:<body>``, ``ellipse1:<body>``,
+    ``ellipse3:<body>``, ``pad``, ``farthest``."""
+    from matplotlib.patches import Circle
+    from matplotlib.patches import Ellipse as EllipsePatch
+
+    length = _factor("length", units)
+    farthest = 0.0
+    for index, item in enumerate(result.footprints):
+        marker = _FOOTPRINT_MARKERS[index % len(_FOOTPRINT_MARKERS)]
+        ax.scatter(
+            item.east * length,
+            item.north * length,
+            s=6,
+            marker=marker,
+            facecolors="none",
+            edgecolors=GREY if index == len(result.footprints) - 1 else PALE,
+            linewidths=0.5,
+            gid=f"impacts:{item.body}",
+            label=item.body,
+        )
+        if math.isfinite(item.farthest):
+            farthest = max(farthest, item.farthest)
+        for ellipse, style in zip(item.ellipses, ("--", "-"), strict=False):
+            # matplotlib's angle runs anticlockwise from the x axis (east); the bearing runs
+            # clockwise from north
+            patch = EllipsePatch(
+                (item.mean[0] * length, item.mean[1] * length),
+                2 * ellipse.major * length,
+                2 * ellipse.minor * length,
+                angle=90.0 - math.degrees(ellipse.bearing),
+                fill=False,
+                ls=style,
+                lw=1.4,
+                edgecolor=INK,
+                zorder=4,  # over the points, which hide a 1σ ellipse's outline
+                gid=f"ellipse{ellipse.sigmas:.0f}:{item.body}",
+            )
+            ax.add_patch(patch)
+    ax.plot([0.0], [0.0], marker="+", ms=10, color=INK, ls="none", gid="pad")
+    if farthest > 0:
+        ax.add_patch(
+            Circle((0.0, 0.0), farthest * length, fill=False, ls=":", lw=0.8,
+                   edgecolor=GREY, gid="farthest")
+        )  # fmt: skip
+    ax.set_aspect("equal", adjustable="datalim")
+    ax.set_xlabel(_label("East of the pad", "length", units))
+    ax.set_ylabel(_label("North", "length", units))
+    ax.legend(fontsize=7, frameon=False, loc="best")
+    ax.set_title("Where things come down", fontsize=9, color=INK, loc="left")
 
 
 # --- sweep -------------------------------------------------------------------------------

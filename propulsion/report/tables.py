@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterable, Sequence
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 from rich import box
 from rich.console import Console, Group, RenderableType
@@ -170,6 +170,17 @@ def _first_lines(lines: Sequence[str], most: int = 12) -> str:
     return "".join(lines[:most]) + f"… and {len(lines) - most:,} more (--json lists all)\n"
 
 
+def thrust_label(stages: Sequence[Any]) -> str:
+    """The stage table's thrust row: a motor's thrust is the average thrust of its curve
+    (at ignition it is 0 N), an engine's the thrust it gives at ignition."""
+    motors = {row.impulse_class is not None for row in stages}  # engines have no class
+    if motors == {True}:
+        return "Average thrust"
+    if motors == {False}:
+        return "Thrust at ignition"
+    return "Thrust (motors: average)"
+
+
 def budget_view(result: BudgetResult, units: DisplayUnits) -> RenderableType:
     """The ideal delta-v budget: stage sheet, leg sheet, verdict, warnings, caution."""
     parts: list[RenderableType] = [mission_summary(result.mission)]
@@ -195,8 +206,9 @@ def budget_view(result: BudgetResult, units: DisplayUnits) -> RenderableType:
         ("Payload ratio", "", col("payload_ratio", digits=3)),
         ("Specific impulse", "s", col("isp")),
         ("Burn time", "s", col("burn_time", digits=3)),
-        ("Thrust at ignition", units.label("force"), col("thrust", "force")),
-        ("Thrust-to-weight at ignition", "", col("thrust_to_weight", digits=3)),
+        # a motor's thrust is its curve's average, an engine's is what it gives at ignition
+        (thrust_label(st), units.label("force"), col("thrust", "force")),
+        ("Thrust-to-weight", "", col("thrust_to_weight", digits=3)),
         ("Total impulse", units.label("impulse"), col("total_impulse", "impulse")),
         ("Impulse class", "", [row.impulse_class or "—" for row in st]),
         ("Ideal Δv", speed, col("ideal_delta_v", "speed")),
@@ -324,8 +336,15 @@ def data_view(
     motors: Sequence[Motor],
     curves: Sequence[DragCurve],
     units: DisplayUnits,
+    files: Sequence[str | None] = (),
 ) -> RenderableType:
-    """What `data` shows: propellant families, motors and drag curves."""
+    """What `data` shows: propellant families, motors and drag curves.
+
+    ``files`` runs beside ``motors``: the curve file of each of the user's own motors
+    (``data --motors``), None for a shipped one. The user's motors are marked ``*`` in the
+    motor table and their files listed under it.
+    """
+    own = {i: file for i, file in enumerate(files) if file is not None}
     fam = _table("Propellant families (data/propellants.csv)")
     fam.add_column("Key", no_wrap=True)
     fam.add_column("Isp (s)", no_wrap=True)
@@ -341,19 +360,22 @@ def data_view(
             f"{f.liftoff_thrust_to_weight_min:g}",
         )
     fam.caption = "Full names and sources: `propulsion data --json` or data/propellants.csv."
-    mot = _table("Demo motors (data/motors/, invented for the examples)")
+    title = "Demo motors (data/motors/, invented for the examples)"
+    if own:
+        title = "Motors (data/motors/: invented for the examples; *: yours)"
+    mot = _table(title)
     mot.add_column("Name", no_wrap=True)
     mot.add_column("Class", justify="center")
     mot.add_column(_head("Total impulse", "impulse", units), justify="right")
-    mot.add_column(_head("Avg thrust", "force", units), justify="right")
+    mot.add_column(_head("Average thrust", "force", units), justify="right")
     mot.add_column("Burn (s)", justify="right")
     mot.add_column("Isp (s)", justify="right")
     mot.add_column(_head("Propellant", "mass", units), justify="right")
     mot.add_column(_head("Loaded", "mass", units), justify="right")
     mot.add_column("Diameter (mm)", justify="right")
-    for m in motors:
+    for i, m in enumerate(motors):
         mot.add_row(
-            m.name,
+            f"{m.name}*" if i in own else m.name,
             m.impulse_class,
             _q(m.total_impulse, "impulse", units),
             _q(m.average_thrust, "force", units),
@@ -373,7 +395,12 @@ def data_view(
             f"{c.mach[0]:g}–{c.mach[-1]:g}",
             f"{c.drag_coefficient.min():.2f}–{c.drag_coefficient.max():.2f}",
         )
-    return Group(fam, mot, drag)
+    if not own:
+        return Group(fam, mot, drag)
+    listed = Text("* Your motors:", style="dim")
+    for i, file in own.items():
+        listed.append(f"\n  {motors[i].name} = {file}", style="dim")
+    return Group(fam, mot, listed, Text(), drag)
 
 
 def sparkline(values: Sequence[float], rows: int = 1) -> list[str]:
@@ -548,6 +575,10 @@ def flight_view(
         shown = to_display(value, dimension, units)
         return f"{_num(shown, 4)} {units.label(dimension)}".strip()
 
+    if result.guidance is not None:
+        parts.append(guidance_view(result, units))
+    if result.impacts:
+        parts.append(impacts_view(result, units))
     if result.verdict.meets_targets is not None:
         parts.append(margins_view(result, units))
     parts.append(
@@ -582,6 +613,124 @@ def closure_text(value: float, resolution: float, units: DisplayUnits) -> str:
     if shown <= limit:
         return f"< {10.0 ** math.ceil(math.log10(limit)):.0e}"
     return f"{to_display(value, 'speed', units):.0e}"
+
+
+IMPACT_CAUTION = (
+    "Ballistic impacts without recovery: a planning figure for a range safety discussion, "
+    "not the range safety analysis."
+)
+
+
+def impacts_view(result: FlightResult, units: DisplayUnits) -> RenderableType:
+    """Where the dropped stages (and the vehicle, when it flies to the ground) come down."""
+    table = _table("Where things come down (no recovery device)")
+    table.add_column("Body", no_wrap=True)
+    table.add_column(_head("East", "length", units), justify="right")
+    table.add_column(_head("North", "length", units), justify="right")
+    table.add_column(_head("From pad", "length", units), justify="right")
+    table.add_column("Time (s)", justify="right")
+    table.add_column(_head("Speed", "speed", units), justify="right")
+    for impact in result.impacts:
+        table.add_row(
+            impact.body,
+            _q(impact.east, "length", units),
+            _q(impact.north, "length", units),
+            _q(impact.distance, "length", units),
+            _num(impact.time, 4),
+            _q(impact.speed, "speed", units),
+        )
+    return Group(table, Text(IMPACT_CAUTION, style="yellow"), Text())
+
+
+def guidance_view(result: FlightResult, units: DisplayUnits) -> RenderableType:
+    """Guidance to the orbit: the target against the insertion, the kick and azimuth
+    flown, the steering law and the propellant left."""
+    guided = result.guidance
+    assert guided is not None
+    # orbits in km (nautical miles in US units)
+    scale, length = (1852.0, "nmi") if units.system == "us" else (1000.0, "km")
+    table = _table("Guided ascent to the target orbit")
+    table.add_column("", no_wrap=True)
+    table.add_column("Target", justify="right")
+    table.add_column("Reached", justify="right")
+    table.add_column("Error", justify="right")
+
+    def km(value: float) -> str:
+        shown = value / scale
+        return f"{shown:,.3f}" if abs(shown) >= 5e-4 else "0"
+
+    for name, want, got in (
+        ("Perigee", guided.target_perigee, guided.perigee),
+        ("Apogee", guided.target_apogee, guided.apogee),
+    ):
+        table.add_row(f"{name} ({length})", km(want), km(got), km(got - want))
+    if math.isfinite(guided.target_inclination):
+        error = math.degrees(guided.inclination - guided.target_inclination)
+        table.add_row(
+            "Inclination",
+            f"{math.degrees(guided.target_inclination):.3f}°",
+            f"{math.degrees(guided.inclination):.3f}°",
+            f"{error:+.4f}°" if abs(error) >= 5e-5 else "0°",
+        )
+    lines = Text(style="dim")
+    kick = f"{math.degrees(guided.kick_angle):.2f}°"
+    lines.append(
+        f"Pitch kick {kick} "
+        + ("(chosen: the most propellant left). " if guided.kick_chosen else "(from the file). ")
+    )
+    azimuth = f"Azimuth flown {math.degrees(guided.azimuth):.2f}°"
+    if math.isfinite(guided.inertial_azimuth):
+        azimuth += f" (inertial {math.degrees(guided.inertial_azimuth):.2f}°)"
+    lines.append(azimuth + ". ")
+    lines.append(
+        f"Upper stage steered by tan(pitch) = {guided.guide_a:.4f} "
+        f"{'-' if guided.guide_b < 0 else '+'} {abs(guided.guide_b):.4f} τ "
+        f"(τ: burn time fraction), solved by shooting in {guided.iterations} iterations"
+        + ("" if guided.converged else ", NOT converged")
+        + ". "
+    )
+    lines.append(
+        f"Propellant left at cutoff: {_q(guided.propellant_left, 'mass', units)} "
+        f"{units.label('mass')}."
+    )
+    return Group(table, lines, Text())
+
+
+def footprint_view(result: ScatterResult, units: DisplayUnits) -> RenderableType:
+    """Where the dispersed flights come down: per body, its mean point, the 1σ and 3σ
+    ellipses and the farthest point from the pad."""
+    length = units.label("length")
+    table = _table(f"Where things come down ({length}; no recovery device)")
+    table.add_column("Body", no_wrap=True)
+    table.add_column("Points", justify="right")
+    table.add_column("Mean east", justify="right")
+    table.add_column("Mean north", justify="right")
+    table.add_column("1σ ellipse", justify="right", no_wrap=True)
+    table.add_column("3σ ellipse", justify="right", no_wrap=True)
+    table.add_column("Bearing", justify="right")
+    table.add_column("Farthest", justify="right", min_width=8)
+    for item in result.footprints:
+        if not item.ellipses:
+            table.add_row(item.body, "0", "—", "—", "—", "—", "—", "—")
+            continue
+        one, three = item.ellipses
+        table.add_row(
+            item.body,
+            f"{item.count:,}",
+            _q(item.mean[0], "length", units),
+            _q(item.mean[1], "length", units),
+            f"{_q(one.major, 'length', units, 3)} × {_q(one.minor, 'length', units, 3)}",
+            f"{_q(three.major, 'length', units, 3)} × {_q(three.minor, 'length', units, 3)}",
+            f"{math.degrees(one.bearing):.0f}°",
+            _q(item.farthest, "length", units),
+        )
+    note = Text(style="dim")
+    note.append(
+        "Ellipses: semi-axes of the points' covariance (1σ holds 39 % of a two-dimensional "
+        "normal spread, 3σ 98.9 %); bearing of the major axis from north; east and north "
+        "of the pad.\n"
+    )
+    return Group(table, note, Text(IMPACT_CAUTION, style="yellow"))
 
 
 def margins_view(result: FlightResult, units: DisplayUnits) -> RenderableType:
@@ -990,6 +1139,8 @@ def scatter_view(result: ScatterResult, units: DisplayUnits) -> RenderableType:
         style="dim",
     )
     parts.append(text)
+    if result.footprints:
+        parts.append(footprint_view(result, units))
     if result.drivers:
         drivers = _table("What drives the spread (Spearman rank correlation)")
         drivers.add_column("Dispersed field", no_wrap=True)

@@ -111,6 +111,8 @@ def _fast_mapping(ref: fields.FieldRef, mission: Mission) -> _Mapping | None:
         "elevation",
         "rail_length",
         "wind_speed",
+        "wind_scale",
+        "wind_turn",
         "site_altitude",
     ):
         return _Mapping(str(path[1]))
@@ -245,6 +247,13 @@ def _apply(
         return (bad, "negative rail length") if np.any(bad) else None
     if kind == "wind_speed":
         core.wind_offset = values.copy()
+        return None
+    if kind == "wind_scale":
+        core.wind_scale = values.copy()
+        bad = values < 0
+        return (bad, "negative wind scale") if np.any(bad) else None
+    if kind == "wind_turn":
+        core.wind_turn = values.copy()
         return None
     if kind == "site_altitude":
         core.site_altitude = values.copy()

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -20,6 +20,9 @@ import numpy as np
 import numpy.typing as npt
 
 from propulsion import ascent, flight, margins
+from propulsion.impacts import Footprint
+from propulsion.impacts import dropped_stage_impacts as impacts_of_dropped
+from propulsion.impacts import footprint as footprint_of
 from propulsion.mission import Mission, parse_mission
 from propulsion.studies.dispersion import Sampler, draw
 from propulsion.studies.statistics import quantile_interval, spearman, wilson_interval
@@ -88,6 +91,8 @@ class StudySpec:
     rtol: float = STUDY_RTOL
     reserve: bool = False
     """Find every sample's propulsion margin too (about 15 more flights per sample)."""
+    footprint: bool = False
+    """Fly every sample on to the ground and every dropped stage down too (the footprint)."""
 
 
 @dataclass
@@ -108,6 +113,11 @@ class ChunkResult:
     misses: npt.NDArray[np.str_] = field(default_factory=lambda: np.zeros(0, dtype=str))
     """Why each flown sample missed its target ("energy", "shape", "no result"; "" when
     it met it)."""
+    bodies: tuple[str, ...] = ()
+    """With a footprint: the bodies that come down (dropped stages, then the vehicle)."""
+    impacts: FloatArray = field(default_factory=lambda: np.zeros((0, 0)))
+    """With a footprint: east and north [m] of each body per sample, rows (east, north) of
+    the first body, then of the next (NaN where it did not come down)."""
 
 
 _CACHE: dict[int, Sampler] = {}
@@ -132,6 +142,14 @@ def run_chunk(spec: StudySpec, start: int, stop: int) -> ChunkResult:
     meets = np.zeros(stop - start, dtype=bool)
     flagged = np.zeros(stop - start, dtype=bool)
     misses = np.full(stop - start, "", dtype=object)
+    bodies: tuple[str, ...] = ()
+    impacts = np.zeros((0, stop - start))
+    if spec.footprint:
+        core.stop_at_ground = True
+        # named as `fly` names them: the dropped stages, then the rest of the vehicle
+        names = sampler.core.stage_names
+        bodies = (*names[:-1], names[-1] if len(names) > 1 else "vehicle")
+        impacts = np.full((2 * len(bodies), stop - start), np.nan)
     if core.n:
         outcome = flight.simulate(core, rtol=spec.rtol, threads=spec.threads)
         rows = np.flatnonzero(valid)
@@ -140,8 +158,25 @@ def run_chunk(spec: StudySpec, start: int, stop: int) -> ChunkResult:
         meets[rows] = met
         misses[rows] = miss
         flagged[rows] = ascent.bad_ignitions(core, outcome)
+        if spec.footprint:
+            dropped = impacts_of_dropped(core, outcome, spec.rtol, spec.threads)
+            for b, name in enumerate(bodies[:-1]):
+                impacts[2 * b, rows], impacts[2 * b + 1, rows] = dropped[name][:2]
+            impacts[-2, rows] = outcome.value("ground", "east")
+            impacts[-1, rows] = outcome.value("ground", "north")
     return ChunkResult(
-        start, stop, values, outputs, meets, valid, keys, reasons, flagged, misses.astype(str)
+        start,
+        stop,
+        values,
+        outputs,
+        meets,
+        valid,
+        keys,
+        reasons,
+        flagged,
+        misses.astype(str),
+        bodies,
+        impacts,
     )
 
 
@@ -156,8 +191,10 @@ def _measure(
         judgement = target.judge(core, outcome)
         margin, meets, miss = judgement.target_margin, judgement.meets, judgement.miss
         if spec.reserve:
+            # the margins need the flights to the target only, not on to the ground
+            to_target = replace(core, stop_at_ground=False)
             propulsion = margins.propulsion_margins(
-                core, target, target.metric(core, outcome), spec.rtol, spec.threads
+                to_target, target, target.metric(core, outcome), spec.rtol, spec.threads
             )
     else:
         margin = np.full(core.n, np.nan)
@@ -193,6 +230,8 @@ class Aggregate:
         self.inputs = np.zeros((inputs, 0))
         self.outputs = np.zeros((len(METRICS), 0))
         self.met = np.zeros(0, dtype=bool)
+        self.bodies: tuple[str, ...] = ()
+        self.impacts = np.zeros((0, 0))
 
     def add(self, chunk: ChunkResult) -> None:
         """Take a chunk's samples into the counts and the reservoir."""
@@ -213,6 +252,11 @@ class Aggregate:
         self.inputs = np.concatenate([self.inputs, chunk.inputs[:, rows]], axis=1)
         self.outputs = np.concatenate([self.outputs, chunk.outputs[:, rows]], axis=1)
         self.met = np.concatenate([self.met, chunk.meets[rows]])
+        if chunk.bodies:
+            if not self.bodies:
+                self.bodies = chunk.bodies
+                self.impacts = np.zeros((chunk.impacts.shape[0], 0))
+            self.impacts = np.concatenate([self.impacts, chunk.impacts[:, rows]], axis=1)
         if self.keys.size > self.capacity:
             keep = np.argpartition(self.keys, self.capacity - 1)[: self.capacity]
             self._keep(keep)
@@ -221,6 +265,8 @@ class Aggregate:
         self.keys, self.index = self.keys[keep], self.index[keep]
         self.inputs, self.outputs = self.inputs[:, keep], self.outputs[:, keep]
         self.met = self.met[keep]
+        if self.bodies:
+            self.impacts = self.impacts[:, keep]
 
     def ordered(self) -> None:
         """Sort the reservoir by sample index (statistics then never depend on order)."""
@@ -286,6 +332,8 @@ class ScatterResult:
     intervals: dict[str, dict[float, tuple[float, float]]] = field(default_factory=dict)
     reserve: Reserve | None = None
     target_unit: str = ""
+    footprints: tuple[Footprint, ...] = ()
+    """With a footprint: where each body came down (dropped stages, then the vehicle)."""
 
     def to_frame(self) -> pd.DataFrame:
         """Percentiles of each output as a DataFrame (rows: outputs, columns: p1 ... p99)."""
@@ -320,6 +368,7 @@ class ScatterResult:
             },
             "percentile_interval_method": "order statistics (binomial), distribution-free",
             "margin_unit": self.target_unit,
+            "footprints": [item.to_dict() for item in self.footprints],
             "reserve": None
             if self.reserve is None
             else {
@@ -387,6 +436,10 @@ def summarise(
     nominal = flight.build_core(mission, ascent.flown_stages(mission))
     target = margins.Target(mission, nominal)
     probability = aggregate.meets / aggregate.valid if aggregate.valid else math.nan
+    footprints = tuple(
+        footprint_of(name, aggregate.impacts[2 * b], aggregate.impacts[2 * b + 1])
+        for b, name in enumerate(aggregate.bodies)
+    )
     found = None
     if reserve is not None:
         values = aggregate.outputs[METRICS.index("propulsion_margin")]
@@ -427,6 +480,7 @@ def summarise(
         intervals=intervals,
         reserve=found,
         target_unit={"length": "m", "speed": "m/s"}.get(target.dimension, ""),
+        footprints=footprints,
     )
 
 
@@ -460,6 +514,7 @@ def scatter(
     on_chunk: Callable[[ChunkResult], None] | None = None,
     progress: Callable[[int, int], None] | None = None,
     reserve: float | None = None,
+    footprint: bool = False,
 ) -> ScatterResult:
     """Fly ``samples`` dispersed vehicles and summarise the outputs.
 
@@ -488,6 +543,9 @@ def scatter(
         A probability (0.997 for the three-sigma flight-performance reserve): find every
         sample's propulsion margin by root finding (about 15 more flights per sample) and
         report the margin that share of the flights still has (:class:`Reserve`).
+    footprint : bool
+        Fly every sample on to the ground (no recovery device), and every stage it drops
+        down on its own, and give where they come down (:mod:`propulsion.impacts`).
 
     Returns
     -------
@@ -517,6 +575,7 @@ def scatter(
         base_dir=str(Path(mission.source).parent) if mission.source != "<mission>" else None,
         seed=seed,
         reserve=reserve is not None,
+        footprint=footprint,
     )
     aggregate = Aggregate(len(mission.dispersions))
     done = 0
