@@ -63,7 +63,7 @@ class Azimuth:
 
 def inertial_azimuth(inclination: float, latitude: float, southward: bool = False) -> float:
     """Inertial launch azimuth [rad], clockwise from north, for an orbit's inclination [rad]
-    from a site at ``latitude`` [rad] (sin beta = cos i / cos phi [1]).
+    from a site at ``latitude`` [rad] (sin beta = cos i / cos phi [1]), in [0, 2 pi).
 
     Raises :class:`InclinationError` when the inclination is below the latitude (or above
     180 deg minus it): no direct launch reaches it.
@@ -83,7 +83,9 @@ def inertial_azimuth(inclination: float, latitude: float, southward: bool = Fals
             f"direct launch reaches {low:.2f} to {180.0 - low:.2f} deg"
         )
     beta = math.asin(max(-1.0, min(1.0, cos_i / cos_phi)))
-    return math.pi - beta if southward else beta
+    # in [0, 2 pi), as the flown azimuth: a retrograde orbit's ascending pass heads
+    # north-west (beta < 0)
+    return math.pi - beta if southward else beta % (2.0 * math.pi)
 
 
 def launch_azimuth(

@@ -18,6 +18,7 @@ import typer
 from propulsion import __version__
 from propulsion.cli import _threads  # noqa: F401 (sets the thread environment first)
 from propulsion.cli import budget as _budget
+from propulsion.cli import capacity as _capacity
 from propulsion.cli import check as _check
 from propulsion.cli import compare as _compare
 from propulsion.cli import data as _data
@@ -76,6 +77,7 @@ app.command("sweep")(_sweep.sweep_command)
 app.command("check")(_check.check_command)
 app.command("data")(_data.data_command)
 app.command("firing")(_firing.firing_command)
+app.command("capacity")(_capacity.capacity_command)
 
 
 def entry() -> None:

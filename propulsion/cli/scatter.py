@@ -184,7 +184,13 @@ def _si(dimension: str) -> str:
 
 
 def _metric_header(metric: str) -> str:
-    for suffix, unit in (("_m_s", "m/s"), ("_pa", "Pa"), ("_m", "m")):
+    for suffix, unit in (
+        ("_m_s", "m/s"),
+        ("_pa", "Pa"),
+        ("_m", "m"),
+        ("_deg", "deg"),
+        ("_kg", "kg"),
+    ):
         if metric.endswith(suffix):
             return f"{metric[: -len(suffix)]} [{unit}]"
     return metric

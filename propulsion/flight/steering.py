@@ -279,9 +279,10 @@ def choose_kick(core: FlightCore, rtol: float = 1e-9, threads: int | None = None
 
     Sample 0 of ``core`` (guided: ``orbit_target`` set) is flown with :data:`KICK_COUNT`
     kick angles across :data:`KICK_RANGE`, each with its steering solved; among those whose
-    solve converged and reached the cutoff, the one with the most mass at cutoff is kept,
-    and a second pass across its neighbours refines it. Returns the core's own angle when
-    no angle reaches the orbit (the flight then shows why).
+    solve converged and reached the cutoff (when none converged: those that reached it),
+    the one with the most mass at cutoff is kept, and a second pass across its neighbours
+    refines it. Returns the core's own angle when no angle reaches the orbit (the flight
+    then shows why).
     """
     from propulsion.flight.batch import simulate as fly
 
@@ -293,7 +294,14 @@ def choose_kick(core: FlightCore, rtol: float = 1e-9, threads: int | None = None
         batch.kick_angle = angles
         outcome = fly(batch, rtol=rtol, threads=threads)
         mass = outcome.state("final")[:, layout.Y_M]
-        good = (outcome.status == "orbit") & (outcome.extra["guide_converged"] > 0.5)
+        reached = outcome.status == "orbit"
+        good = reached & (outcome.extra["guide_converged"] > 0.5)
+        if not np.any(good):
+            # no angle met every condition to its tolerance: an inclination at the edge
+            # of what the site reaches (i = latitude, a launch due east: the closest plane
+            # flown lies a few thousandths of a degree above it). The angles that still
+            # reached the cutoff, each flying its closest solution, are the choice.
+            good = reached
         if not np.any(good):
             break
         index = int(np.argmax(np.where(good, mass, -np.inf)))

@@ -122,6 +122,10 @@ _METRICS = {
     "rail_exit_speed_m_s": ("Rail exit speed", "speed"),
     "margin": ("Target margin", "target"),
     "downrange_m": ("Downrange at apogee", "length"),
+    "perigee_error_m": ("Perigee error (guided)", "length"),
+    "apogee_error_m": ("Apogee error (guided)", "length"),
+    "inclination_error_deg": ("Inclination error (guided, deg)", None),
+    "propellant_left_kg": ("Propellant left at cutoff", "mass"),
 }
 
 _ASSUMPTIONS = (
@@ -886,6 +890,8 @@ def _dispersion(page: _Page, mission: Mission, spread: ScatterResult | None, fig
     target_dimension = "speed" if spread.target == "burnout_speed" else "length"
     rows = []
     for metric, (title, dimension) in _METRICS.items():
+        if metric not in spread.percentiles:
+            continue  # the guided rows, for missions guided to an orbit
         if dimension == "target":
             dimension = target_dimension if spread.target else None
         values = spread.percentiles[metric]

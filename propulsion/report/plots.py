@@ -40,6 +40,7 @@ if TYPE_CHECKING:
     from propulsion.ledger import BudgetResult
     from propulsion.mission import Mission
     from propulsion.stage_split import SplitResult
+    from propulsion.studies.capacity import CapacityResult
     from propulsion.studies.scatter import ScatterResult
     from propulsion.studies.sweep import SweepResult
 
@@ -1367,3 +1368,45 @@ def _count_axes(
     ax.set_xticks(counts)
     ax.set_xlabel("Stages (each like the mission's, the last repeated)")
     ax.set_ylabel(_label("Optimal liftoff mass", "mass", units))
+
+
+def capacity_figure(result: CapacityResult, units: DisplayUnits) -> Figure:
+    """Payload to orbit against circular altitude, one line per inclination.
+
+    Altitudes in km (nautical miles in US units), payloads in the display mass unit.
+    Points out of reach are left out. gids: ``capacity:<inclination in deg or "file">``.
+    """
+    us = units.system == "us"
+    scale, label = (1852.0, "nmi") if us else (1000.0, "km")
+    mass = to_display(1.0, "mass", units)
+    figure = _new_figure(FIGURE_SIZE, result.mission, f"{result.mission.name}: payload to orbit")
+    ax = figure.add_subplot(1, 1, 1)
+    _style(ax)
+    planes: dict[float, list[tuple[float, float]]] = {}
+    for point in result.points:
+        key = point.inclination
+        planes.setdefault(key if not math.isnan(key) else -1.0, []).append(
+            (point.altitude, point.payload)
+        )
+    styles = ("-", "--", ":", "-.")
+    for index, (plane, rows) in enumerate(planes.items()):
+        rows = [(a, p) for a, p in rows if math.isfinite(p)]
+        name = "file" if plane < 0 else f"{math.degrees(plane):g}"
+        text = "the file's plane" if plane < 0 else f"inclination {math.degrees(plane):g}°"
+        ax.plot(
+            [a / scale for a, _ in rows],
+            [p * mass for _, p in rows],
+            ls=styles[index % len(styles)],
+            marker="o",
+            ms=4,
+            color=INK,
+            lw=1.4,
+            label=text,
+            gid=f"capacity:{name}",
+        )
+    ax.set_xlabel(f"Circular orbit altitude ({label})")
+    ax.set_ylabel(_label("Largest payload", "mass", units))
+    ax.set_ylim(bottom=0.0)
+    if len(planes) > 1:
+        ax.legend(frameon=False, fontsize=8)
+    return figure

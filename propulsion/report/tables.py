@@ -1014,6 +1014,10 @@ _METRIC_DIMENSIONS = {
     "margin": ("Target margin", None),
     "downrange_m": ("Downrange at apogee", "length"),
     "propulsion_margin": ("Propulsion margin", "percent"),
+    "perigee_error_m": ("Perigee error", "length"),
+    "apogee_error_m": ("Apogee error", "length"),
+    "inclination_error_deg": ("Inclination error", "degree"),
+    "propellant_left_kg": ("Propellant left", "mass"),
 }
 
 
@@ -1035,6 +1039,10 @@ def scatter_view(result: ScatterResult, units: DisplayUnits) -> RenderableType:
     margin_dimension = {"apogee": "length", "circular_orbit": "length"}.get(result.target, "speed")
 
     def shown(value: float, dimension: str | None) -> str:
+        if dimension == "degree":
+            if not math.isfinite(value):
+                return "—"
+            return f"{value:+.4f}" if abs(value) >= 5e-5 else "0"  # no round-off shown
         if dimension == "percent":
             if not math.isfinite(value):
                 return "—"
@@ -1046,6 +1054,8 @@ def scatter_view(result: ScatterResult, units: DisplayUnits) -> RenderableType:
     def unit_of(dimension: str | None) -> str:
         if dimension == "percent":
             return "%"
+        if dimension == "degree":
+            return "deg"
         return units.label(dimension) if dimension else ""
 
     for metric, (title, dimension) in _METRIC_DIMENSIONS.items():
@@ -1057,6 +1067,8 @@ def scatter_view(result: ScatterResult, units: DisplayUnits) -> RenderableType:
             dimension = margin_dimension
             title = "Target margin (in the band)" if result.target == "circular_orbit" else title
         values = result.percentiles[metric]
+        if not any(math.isfinite(values[p]) for p in PERCENTS):
+            continue  # nothing to show (an apogee of an orbit, insertion of no guidance)
         table.add_row(title, unit_of(dimension), *[shown(values[p], dimension) for p in PERCENTS])
         if metric in ("margin", "propulsion_margin") and metric in result.intervals:
             # the margins' percentiles carry their 95 % confidence intervals

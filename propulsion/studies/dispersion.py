@@ -148,6 +148,13 @@ class Sampler:
         self.mappings = [_fast_mapping(ref, mission) for ref in self.refs]
         self.base_dir = Path(mission.source).parent if mission.source != "<mission>" else None
         self.core = flight.build_core(mission, self.stages)
+        self.document = mission.document
+        if self.core.kick_chosen:
+            # the pitch kick is chosen once, for the nominal vehicle, and flown by every
+            # sample (a vehicle's pitch programme is loaded before the flight); a sample
+            # rebuilt from its document keeps it rather than choosing its own
+            kick = fields.resolve(self.document, "flight.pitch_kick_angle")
+            self.document = fields.set_value(self.document, kick, float(self.core.kick_angle[0]))
 
     @property
     def all_fast(self) -> bool:
@@ -165,14 +172,16 @@ class Sampler:
         if slow:
             cores = []
             for j in range(count):
-                document = self.mission.document
+                document = self.document
                 for d in slow:
                     document = fields.set_value(document, self.refs[d], float(values[d, j]))
                 try:
                     sample = parse_mission(
                         document, source=self.mission.source, base_dir=self.base_dir
                     )
-                    cores.append(flight.build_core(sample, self.stages))
+                    one = flight.build_core(sample, self.stages)
+                    one.kick_chosen = self.core.kick_chosen  # flown as the nominal's
+                    cores.append(one)
                 except PropulsionError as exc:
                     built[j] = False
                     names = ", ".join(self.dispersions[d].field for d in slow)

@@ -20,6 +20,7 @@ import numpy as np
 import numpy.typing as npt
 
 from propulsion import ascent, flight, margins
+from propulsion.flight import layout
 from propulsion.impacts import Footprint
 from propulsion.impacts import dropped_stage_impacts as impacts_of_dropped
 from propulsion.impacts import footprint as footprint_of
@@ -69,10 +70,24 @@ METRICS = (
     "margin",
     "downrange_m",
     "propulsion_margin",
+    "perigee_error_m",
+    "apogee_error_m",
+    "inclination_error_deg",
+    "propellant_left_kg",
 )
 """The study's outputs per sample. ``margin`` is the target margin in the target's unit
 (NaN where it is not defined: an orbit never reached); ``propulsion_margin`` the fraction
-of impulse each sample may lose (NaN unless a reserve is asked for)."""
+of impulse each sample may lose (NaN unless a reserve is asked for). Under guidance to an
+orbit: the insertion errors (perigee and apogee against the target's, the inclination
+against the target's when it names one) and the propellant left in the last stage at
+cutoff (NaN otherwise, and where the orbit was not reached)."""
+GUIDED_METRICS = (
+    "perigee_error_m",
+    "apogee_error_m",
+    "inclination_error_deg",
+    "propellant_left_kg",
+)
+"""The outputs of guidance to an orbit: left out of the statistics when no sample has them."""
 
 
 @dataclass(frozen=True)
@@ -209,9 +224,38 @@ def _measure(
             margin,
             outcome.value("apogee", "downrange"),
             propulsion,
+            *_insertion(core, outcome),
         ]
     )
     return out, meets, miss
+
+
+def _insertion(core: flight.FlightCore, outcome: flight.Outcome) -> list[FloatArray]:
+    """Insertion errors [m, m, deg] and propellant left [kg] per sample under guidance to
+    an orbit; NaN rows otherwise, and NaN where the flight did not reach its cutoff."""
+    nothing = np.full(core.n, np.nan)
+    target = core.orbit_target
+    if target is None or "guide_a" not in outcome.extra:
+        return [nothing] * 4
+    from propulsion.constants import EARTH_EQUATORIAL_RADIUS
+    from propulsion.flight.steering import insertion
+
+    final = outcome.state("final")
+    reached = outcome.status == "orbit"
+    perigee, apogee = margins.apsis_altitudes(final)
+    _, _, inclination = insertion(final)
+    plane = (
+        np.degrees(inclination - target.inclination) if target.inclination is not None else nothing
+    )
+    last = core.stages - 1
+    ignition = outcome.state(f"ignition:{last}")[:, layout.Y_M]
+    left = core.usable[last] - (ignition - final[:, layout.Y_M])
+    return [
+        np.where(reached, perigee - (target.perigee_radius - EARTH_EQUATORIAL_RADIUS), np.nan),
+        np.where(reached, apogee - (target.apogee_radius - EARTH_EQUATORIAL_RADIUS), np.nan),
+        np.where(reached, plane, np.nan),
+        np.where(reached, left, np.nan),
+    ]
 
 
 class Aggregate:
@@ -413,6 +457,8 @@ def summarise(
             continue
         values = aggregate.outputs[row]
         values = values[np.isfinite(values)]
+        if metric in GUIDED_METRICS and not values.size:
+            continue  # not guided to an orbit (or no sample reached it)
         percentiles[metric] = {
             p: float(np.percentile(values, p)) if values.size else math.nan for p in PERCENTILES
         }
@@ -423,7 +469,12 @@ def summarise(
     output = METRICS.index("margin")
     y = aggregate.outputs[output]
     usable = y[np.isfinite(y)]
-    if usable.size < 3 or np.ptp(usable) == 0:  # no target: rank against the apogee
+    guided = aggregate.outputs[METRICS.index("propellant_left_kg")]
+    if np.isfinite(guided).sum() >= 3:
+        # guided to an orbit: the shape is the guidance's; what varies is what is left
+        output = METRICS.index("propellant_left_kg")
+        y = guided
+    elif usable.size < 3 or np.ptp(usable) == 0:  # no target: rank against the apogee
         output = METRICS.index("apogee_m")
         y = aggregate.outputs[output]
     finite = np.isfinite(y)
