@@ -240,6 +240,7 @@ class Target:
         self.required = math.nan
         self.dimension = ""
         self.tolerance = math.nan
+        self.required_apogee = math.nan
         self.later_need = 0.0
         if leg is None:
             return
@@ -250,6 +251,8 @@ class Target:
         elif self.kind == "circular_orbit":
             self.required, self.dimension = leg.fields["altitude"], "length"
             self.tolerance = leg.fields.get("tolerance", ORBIT_TOLERANCE)
+            # an ellipse (entered at its perigee): the apogee's own band
+            self.required_apogee = leg.fields.get("apogee_altitude", self.required)
             plan = budget(mission)
             later = sum(row.required_delta_v + row.reserve for row in plan.legs[1:])
             self.later_need = later + mission.margins.reserve
@@ -318,8 +321,15 @@ class Target:
         perigee, apogee = apsis_altitudes(outcome.state("final"))
         perigee = np.where(reached, perigee, math.nan)
         apogee = np.where(reached, apogee, math.nan)
-        band = np.minimum(
-            perigee - (self.required - self.tolerance), self.required + self.tolerance - apogee
+        # both apsides inside their bands (for a circle the two outer sides are implied:
+        # the perigee never lies above the apogee)
+        band = np.minimum.reduce(
+            [
+                perigee - (self.required - self.tolerance),
+                self.required + self.tolerance - perigee,
+                apogee - (self.required_apogee - self.tolerance),
+                self.required_apogee + self.tolerance - apogee,
+            ]
         )
         shape_ok = reached & (band >= 0) & (perigee >= MIN_PERIGEE)
         energy_ok = reached & (energy >= 0)
@@ -578,6 +588,9 @@ class FlightVerdict:
     method: str
     evaluations: int = 0
     asked_is_fraction: bool = False
+    required_apogee: float = math.nan
+    """An elliptical target's apogee altitude [m] (NaN: not an orbit; the required
+    altitude for a circle)."""
 
     def judged_text(self, format_value: Callable[[float, str], str]) -> str:
         """The judged margin's value in words, e.g. "11.2 % of total impulse"."""
@@ -610,6 +623,11 @@ class FlightVerdict:
         fmt = format_value
         if self.target == "circular_orbit":
             band = f"{fmt(self.required, 'length')} ± {fmt(self.tolerance, 'length')}"
+            if math.isfinite(self.required_apogee) and self.required_apogee != self.required:
+                band = (
+                    f"{fmt(self.required, 'length')} × {fmt(self.required_apogee, 'length')}"
+                    f" ± {fmt(self.tolerance, 'length')}"
+                )
             if math.isfinite(self.perigee):
                 shape = (
                     f"perigee {fmt(self.perigee, 'length')}, apogee "
@@ -684,6 +702,9 @@ class FlightVerdict:
             "meets_targets": self.meets_targets,
             "miss": self.miss or None,
             "orbit_tolerance_m": self.tolerance if math.isfinite(self.tolerance) else None,
+            "required_apogee_m": self.required_apogee
+            if math.isfinite(self.required_apogee)
+            else None,
             "perigee_altitude_m": _finite(self.perigee),
             "apogee_altitude_m": _finite(self.apogee),
             "delta_v_left_after_later_legs_m_s": _finite(self.delta_v_left),
@@ -801,6 +822,7 @@ def judge_flight(
         target_margin=target_margin,
         target_margin_fraction=target_margin / reference if reference else nan,
         tolerance=target.tolerance,
+        required_apogee=target.required_apogee,
         perigee=float(judgement.perigee[0]),
         apogee=float(judgement.apogee[0]),
         delta_v_left=float(judgement.delta_v_left[0]),

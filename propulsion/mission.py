@@ -36,6 +36,7 @@ __all__ = [
     "Mission",
     "load_mission",
     "parse_mission",
+    "read_mission_text",
 ]
 
 UNIT_HINTS = {
@@ -255,6 +256,13 @@ def load_mission(path: str | Path) -> Mission:
         Any problem with the content; the message names file, field, line and expectation.
     """
     path = Path(path)
+    return parse_mission(read_mission_text(path), source=str(path), base_dir=path.parent)
+
+
+def read_mission_text(path: str | Path) -> str:
+    """A mission file's text, after the checks :func:`load_mission` makes (a regular file
+    of at most ``MAX_MISSION_BYTES``, UTF-8, a byte-order mark dropped)."""
+    path = Path(path)
     expected = "a TOML mission file"
     try:
         info = path.stat()
@@ -283,7 +291,7 @@ def load_mission(path: str | Path) -> Mission:
         text = raw.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
         raise MissionError(path, "", "the file is not UTF-8 text", "a TOML text file") from exc
-    return parse_mission(text, source=str(path), base_dir=path.parent)
+    return text
 
 
 MAX_MISSION_BYTES = 64_000_000
@@ -1722,6 +1730,12 @@ class _Builder:
             fields = self._target_fields(table, kind.required, kind.optional, kind_name)
             if "inclination" in fields:
                 self._check_inclination(table, fields["inclination"], launch, not legs)
+            if fields.get("apogee_altitude", math.inf) < fields.get("altitude", 0.0):
+                raise table.error(
+                    "apogee_altitude",
+                    "is below the altitude (the perigee of the orbit)",
+                    "an apogee_altitude at or above altitude",
+                )
             reserve = float(table.quantity("reserve", "speed", default=0.0, low=0.0) or 0.0)
             try:
                 requirement = required_delta_v(

@@ -13,7 +13,7 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 from propulsion import orbits
-from propulsion.constants import EARTH_EQUATORIAL_RADIUS
+from propulsion.constants import EARTH_EQUATORIAL_RADIUS, EARTH_MU
 
 __all__ = ["TARGET_KINDS", "Requirement", "TargetKind", "required_delta_v"]
 
@@ -73,10 +73,17 @@ def _circular_orbit(
     latitude: float | None,
     azimuth: float | None,
 ) -> Requirement:
-    speed = float(orbits.circular_speed(_radius(fields["altitude"])))
     allowance = fields["loss_allowance"]
-    terms = [("circular orbit speed", speed), ("loss allowance", allowance)]
-    formula = "sqrt(GM / r) + loss allowance"
+    if "apogee_altitude" in fields:
+        # an ellipse entered at its perigee: the vis-viva speed there (Curtis, eq. 2.71)
+        perigee, apogee = _radius(fields["altitude"]), _radius(fields["apogee_altitude"])
+        speed = math.sqrt(EARTH_MU * (2.0 / perigee - 2.0 / (perigee + apogee)))
+        terms = [("perigee speed of the orbit", speed), ("loss allowance", allowance)]
+        formula = "sqrt(GM (2/r_p - 1/a)) + loss allowance"
+    else:
+        speed = float(orbits.circular_speed(_radius(fields["altitude"])))
+        terms = [("circular orbit speed", speed), ("loss allowance", allowance)]
+        formula = "sqrt(GM / r) + loss allowance"
     if latitude is not None and "inclination" in fields:
         # the inclination sets the azimuth flown (propulsion.guidance); unreachable
         # inclinations raise InclinationError (a ValueError)
@@ -147,7 +154,7 @@ TARGET_KINDS: dict[str, TargetKind] = {
             "reach a circular orbit (with Earth's rotation when the launch site gives "
             "latitude and azimuth)",
             {"altitude": "length", "loss_allowance": "speed"},
-            {"tolerance": "length", "inclination": "angle"},
+            {"tolerance": "length", "inclination": "angle", "apogee_altitude": "length"},
             _circular_orbit,
         ),
         TargetKind(

@@ -501,3 +501,43 @@ def test_open_loop_samples_meet_the_target_far_less_often(study: ScatterResult) 
     assert study.probability - contrast.probability > 0.2
     # open loop, nothing reports guided insertion errors
     assert np.all(np.isnan(contrast.values["perigee_error_m"]))
+
+
+# --- an elliptical target -----------------------------------------------------------------
+
+
+def test_an_elliptical_target_is_met_at_both_apsides() -> None:
+    # apogee_altitude turns the first leg's circle into an ellipse entered at its perigee:
+    # the budget asks the vis-viva speed there, sqrt(mu (2/r_p - 1/a)) (Curtis, 3rd ed.,
+    # eq. 2.71), and the guided flight lands on both apsides
+    doc = orbital_doc()
+    doc["leg"][0]["apogee_altitude"] = "400 km"
+    mission = mission_of(doc)
+    rp, ra = RADIUS + 200e3, RADIUS + 400e3
+    speed = math.sqrt(MU * (2 / rp - 2 / (rp + ra)))
+    requirement = mission.legs[0].requirement
+    assert dict(requirement.terms)["perigee speed of the orbit"] == pytest.approx(speed, rel=1e-12)
+    result = fly(mission, margin=False)
+    perigee, apogee, inclination = elements(result.outcome.state("final")[0])
+    assert abs(perigee - 200e3) < 1e3 and abs(apogee - 400e3) < 1e3
+    assert abs(math.degrees(inclination) - 40.0) < 0.01
+    assert result.verdict.meets_targets
+    assert result.verdict.required_apogee == pytest.approx(400e3)
+    # judged against the circle at 200 km instead, the same ellipse misses in shape
+    from propulsion import margins
+
+    core = result.outcome  # the ellipse's flight
+    circle = mission_of(orbital_doc())
+    from propulsion import flight
+    from propulsion.ascent import flown_stages
+
+    circle_core = flight.build_core(circle, flown_stages(circle))
+    judged = margins.Target(circle, circle_core).judge(circle_core, core)
+    assert not judged.meets[0] and judged.miss[0] == "shape"
+
+
+def test_an_apogee_below_the_perigee_is_refused() -> None:
+    doc = orbital_doc()
+    doc["leg"][0]["apogee_altitude"] = "150 km"
+    with pytest.raises(MissionError, match="apogee_altitude"):
+        mission_of(doc)

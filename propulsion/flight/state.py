@@ -428,16 +428,18 @@ def build_core(mission: Mission, stages: int | None = None, n: int = 1) -> Fligh
     if mission.legs and mission.legs[0].target == "circular_orbit":
         first = mission.legs[0].fields
         radius = EARTH_EQUATORIAL_RADIUS + first["altitude"]
-        cutoff = -EARTH_MU / (2 * radius)
+        # a circle, or an ellipse entered at its perigee (the leg's apogee_altitude)
+        far = EARTH_EQUATORIAL_RADIUS + first.get("apogee_altitude", first["altitude"])
+        cutoff = -EARTH_MU / (radius + far)
         inclination = first.get("inclination")
         if inclination is not None and launch.latitude is not None:
             # the azimuth that reaches the inclination over the rotating Earth (the
             # guidance then solves it exactly); the loader checked it is reachable
-            speed = math.sqrt(EARTH_MU / radius)
+            speed = math.sqrt(EARTH_MU * (2.0 / radius - 2.0 / (radius + far)))
             azimuth = launch_azimuth(inclination, launch.latitude, speed).flown
             rotation = True
         if settings.guidance == "orbit":
-            orbit_target = OrbitTarget(radius, radius, inclination)
+            orbit_target = OrbitTarget(radius, far, inclination)
     omega = EARTH_ROTATION_RATE if rotation and settings.earth != "flat" else 0.0
     air = air_table(launch.air, launch.altitude)
     notes.extend(air.notes)
