@@ -30,6 +30,7 @@ from propulsion.cli import scatter as _scatter
 from propulsion.cli import size as _size
 from propulsion.cli import split as _split
 from propulsion.cli import sweep as _sweep
+from propulsion.cli import worksheet as _worksheet
 from propulsion.cli.common import state
 
 __all__ = ["app", "entry", "main"]
@@ -78,6 +79,7 @@ app.command("check")(_check.check_command)
 app.command("data")(_data.data_command)
 app.command("firing")(_firing.firing_command)
 app.command("capacity")(_capacity.capacity_command)
+app.command("worksheet")(_worksheet.worksheet_command)
 
 
 def entry() -> None:

@@ -1,0 +1,1 @@
+"""The worksheet: a live terminal table of a mission (`propulsion worksheet`)."""
