@@ -283,3 +283,20 @@ def test_scatter_gives_the_footprint_of_every_body(tmp_path: Path) -> None:
     assert drawn.exit_code == 0, drawn.output
     svg = picture.read_text(encoding="utf-8")
     assert 'id="impacts:sustainer"' in svg and 'id="pad"' in svg
+
+
+def test_a_flight_to_the_ground_books_its_ledger_to_apogee() -> None:
+    # The ledger is the ascent's: flown on to the ground, the fall added speed with
+    # gravity's help and the whole-flight sums showed a gravity "loss" of -41 m/s (the
+    # launch-day example). Ended at apogee, every loss is a loss and the books still close.
+    from propulsion.ascent import fly
+    from propulsion.mission import load_mission
+
+    result = fly(load_mission(MISSIONS / "launch_day_team_motor.toml"), margin=False)
+    assert result.status == "ground"
+    total = result.total
+    assert total.gravity_loss > 0 and total.drag_loss > 0
+    apogee_speed = float(result.outcome.value("apogee", "ledger_speed")[0])
+    start_speed = float(result.outcome.value("ignition:0", "ledger_speed")[0])
+    assert total.achieved == pytest.approx(apogee_speed - start_speed, abs=1e-9)
+    assert abs(total.closure) < 1e-3

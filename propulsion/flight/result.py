@@ -114,7 +114,9 @@ class Outcome:
 
         Returns ``terms`` (s + 1, n, 7), in the order of
         :data:`propulsion.flight.layout.LEDGER_TERMS`, and ``speeds`` (s + 1, n) [m/s];
-        row k is stage k's ignition (NaN if it never lit), row s the end of the flight.
+        row k is stage k's ignition (NaN if it never lit), row s the end of the ascent: the
+        end of the flight, or its apogee when it flew on to the ground (the fall adds speed
+        with gravity's help: a ledger through it would show a negative gravity loss).
         A stage's segment of the ledger is the difference of consecutive rows.
         """
         s = self.stages
@@ -123,6 +125,8 @@ class Outcome:
         for k in range(s):
             terms[k] = self.state(f"ignition:{k}")[:, layout.Y_IDEAL : layout.Y_ROTATION + 1]
             speeds[k] = self.value(f"ignition:{k}", "ledger_speed")
-        terms[s] = self.state("final")[:, layout.Y_IDEAL : layout.Y_ROTATION + 1]
-        speeds[s] = self.final("ledger_speed")
+        fell = (self.status == "ground") & np.isfinite(self.time("apogee"))
+        end = np.where(fell[:, None], self.state("apogee"), self.state("final"))
+        terms[s] = end[:, layout.Y_IDEAL : layout.Y_ROTATION + 1]
+        speeds[s] = np.where(fell, self.value("apogee", "ledger_speed"), self.final("ledger_speed"))
         return terms, speeds
