@@ -45,6 +45,9 @@ class MissionError(PropulsionError, ValueError):
         The line in the file, where it is known.
     """
 
+    field_word = "field"
+    """What ``field`` names in the message: a field of a file, or a column of a table."""
+
     def __init__(
         self,
         source: str | Path,
@@ -69,7 +72,7 @@ class MissionError(PropulsionError, ValueError):
             where += f", line {self.line}"
         parts = [f"{where}:"]
         if self.field:
-            parts.append(f"field '{self.field}':")
+            parts.append(f"{self.field_word} '{self.field}':")
         problem = self.problem.rstrip(".")
         parts.append(problem)
         message = " ".join(parts) + ("" if problem.endswith("?") else ".")

@@ -127,19 +127,7 @@ class FiringLogError(DataFileError):
     and what was expected (the fields of :class:`~propulsion.errors.MissionError`, with
     ``field`` holding the column's name)."""
 
-    def __str__(self) -> str:
-        where = self.source
-        if self.line is not None:
-            where += f", line {self.line}"
-        parts = [f"{where}:"]
-        if self.field:
-            parts.append(f"column '{self.field}':")
-        problem = self.problem.rstrip(".")
-        parts.append(problem)
-        message = " ".join(parts) + "."
-        if self.expected:
-            message += f" Expected {self.expected.rstrip('.')}."
-        return message
+    field_word = "column"
 
 
 class FiringError(RequestError):
@@ -575,8 +563,35 @@ def _samples(
 # --- one firing ----------------------------------------------------------------------------
 
 
+class _Curve:
+    """What a thrust curve (time [s] from the burn start, thrust [N]) gives by itself."""
+
+    time: FloatArray
+    thrust: FloatArray
+
+    @property
+    def total_impulse(self) -> float:
+        """Trapezoidal integral of the curve [N s]."""
+        return tc.total_impulse(self.time, self.thrust)
+
+    @property
+    def burn_time(self) -> float:
+        """Span of the curve, from the burn start to its end [s]."""
+        return float(self.time[-1])
+
+    @property
+    def average_thrust(self) -> float:
+        """Average thrust over the burn, total impulse / burn time [N]."""
+        return self.total_impulse / self.burn_time
+
+    @property
+    def peak_thrust(self) -> float:
+        """Highest thrust of the curve [N]."""
+        return float(np.max(self.thrust))
+
+
 @dataclass(frozen=True)
-class Firing:
+class Firing(_Curve):
     """One firing analysed: the tare, the burn window, the curve and its integrals, in SI.
 
     Attributes
@@ -644,26 +659,6 @@ class Firing:
     burn_time_error: float
     outside_impulse: float
     clipped: int
-
-    @property
-    def total_impulse(self) -> float:
-        """Trapezoidal integral of the curve [N s]."""
-        return tc.total_impulse(self.time, self.thrust)
-
-    @property
-    def burn_time(self) -> float:
-        """Time from the burn start to the burn end [s]."""
-        return float(self.time[-1])
-
-    @property
-    def average_thrust(self) -> float:
-        """Average thrust over the burn, total impulse / burn time [N]."""
-        return self.total_impulse / self.burn_time
-
-    @property
-    def peak_thrust(self) -> float:
-        """Highest thrust of the curve [N]."""
-        return float(np.max(self.thrust))
 
     @property
     def impulse_error(self) -> float:
@@ -1146,7 +1141,7 @@ def spread_interval(std: float, count: int, confidence: float = 0.95) -> tuple[f
 
 
 @dataclass(frozen=True)
-class FiringImport:
+class FiringImport(_Curve):
     """The firings of one motor and the curve that represents them, in SI.
 
     Attributes
@@ -1175,26 +1170,6 @@ class FiringImport:
     def count(self) -> int:
         """Number of firings."""
         return len(self.firings)
-
-    @property
-    def total_impulse(self) -> float:
-        """Trapezoidal integral of the curve written [N s]."""
-        return tc.total_impulse(self.time, self.thrust)
-
-    @property
-    def burn_time(self) -> float:
-        """Span of the curve written [s]."""
-        return float(self.time[-1])
-
-    @property
-    def average_thrust(self) -> float:
-        """Average thrust of the curve written, total impulse / burn time [N]."""
-        return self.total_impulse / self.burn_time
-
-    @property
-    def peak_thrust(self) -> float:
-        """Highest thrust of the curve written [N]."""
-        return float(np.max(self.thrust))
 
     @property
     def specific_impulse(self) -> float | None:
