@@ -160,7 +160,11 @@ def trusted_folders(*folders: str | Path) -> Iterator[None]:
         _TRUSTED.reset(token)
 
 
-def _file_kind(mode: int) -> str:
+def file_kind(mode: int) -> str:
+    """What a path is when it is not a regular file, from its ``st_mode`` ("" when it is
+    one): "a folder", "a named pipe", "a device", "a socket" or "not a regular file"."""
+    if stat.S_ISREG(mode):
+        return ""
     if stat.S_ISDIR(mode):
         return "a folder"
     if stat.S_ISFIFO(mode):
@@ -169,7 +173,7 @@ def _file_kind(mode: int) -> str:
         return "a device"
     if stat.S_ISSOCK(mode):
         return "a socket"
-    return "some other kind of file"
+    return "not a regular file"
 
 
 def user_data_file(text: str, base_dir: str | Path, what: str = "data file") -> Path:
@@ -241,7 +245,7 @@ def user_data_file(text: str, base_dir: str | Path, what: str = "data file") -> 
     if not stat.S_ISREG(info.st_mode):
         raise DataPathError(
             path,
-            f"{path} is not a regular file: it is {_file_kind(info.st_mode)}",
+            f"{path} is not a regular file: it is {file_kind(info.st_mode)}",
             "a CSV file",
         )
     return path
@@ -415,7 +419,7 @@ def _read_bytes(path: Path) -> bytes:
         info = os.fstat(handle.fileno())
         if not stat.S_ISREG(info.st_mode):
             raise DataFileError(
-                path, "", f"not a regular file: it is {_file_kind(info.st_mode)}", "a CSV file"
+                path, "", f"not a regular file: it is {file_kind(info.st_mode)}", "a CSV file"
             )
         too_big = DataFileError(
             path,

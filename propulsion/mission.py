@@ -271,7 +271,7 @@ def read_mission_text(path: str | Path) -> str:
     except OSError as exc:  # a symbolic link loop, a name too long, no permission
         reason = exc.strerror or type(exc).__name__
         raise MissionError(path, "", f"cannot open it ({reason})", expected) from None
-    kind = _file_kind(info.st_mode)
+    kind = catalog.file_kind(info.st_mode)
     if kind:
         raise MissionError(path, "", f"is {kind}, not a file", expected)
     if info.st_size > MAX_MISSION_BYTES:
@@ -296,23 +296,6 @@ def read_mission_text(path: str | Path) -> str:
 
 MAX_MISSION_BYTES = 64_000_000
 """The largest mission file read: 64 MB (a mission of 100,000 legs is about 6 MB)."""
-
-
-def _file_kind(mode: int) -> str:
-    """What a path is when it is not a regular file ("" when it is one)."""
-    import stat
-
-    if stat.S_ISREG(mode):
-        return ""
-    if stat.S_ISDIR(mode):
-        return "a folder"
-    if stat.S_ISFIFO(mode):
-        return "a named pipe"
-    if stat.S_ISCHR(mode) or stat.S_ISBLK(mode):
-        return "a device"
-    if stat.S_ISSOCK(mode):
-        return "a socket"
-    return "not a regular file"
 
 
 def parse_mission(
