@@ -302,6 +302,10 @@ class Target:
         energy = outcome.final("energy")
         deficit = (energy - core.cutoff_energy) / np.maximum(speed, 1.0)
         reached = outcome.status == "orbit"
+        if "guide_converged" in outcome.extra:
+            # guided: an orbit counts only where the steering met it (shape and plane);
+            # an unconverged solve cut off at the energy somewhere else
+            reached = reached & (outcome.extra["guide_converged"] > 0.5)
         return np.where(reached, left, np.minimum(deficit, 0.0)) - self.later_need
 
     def judge(self, core: flight.FlightCore, outcome: flight.Outcome) -> Judgement:

@@ -541,3 +541,13 @@ def test_an_apogee_below_the_perigee_is_refused() -> None:
     doc["leg"][0]["apogee_altitude"] = "150 km"
     with pytest.raises(MissionError, match="apogee_altitude"):
         mission_of(doc)
+
+
+def test_capacity_stays_monotonic_where_the_kick_runs_out() -> None:
+    # Found when the docs were written: at 400 km the kick re-chosen at the payload found
+    # had nothing to spare and fell back to 0 deg ("out of reach"), and at 800 km an
+    # unconverged steering solve counted as an orbit (155.6 kg, more than at 700 km).
+    result = capacity(mission_of(orbital_doc()), [400e3, 700e3, 800e3])
+    at400, at700, at800 = (point.payload for point in result.points)
+    assert result.points[0].bounded and 250.0 < at400 < 400.0
+    assert not at800 >= at700  # out of reach (NaN) or less

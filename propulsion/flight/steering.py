@@ -9,11 +9,10 @@ velocity. The linear-tangent law is the optimal steering of a rocket of given th
 history in uniform gravity without drag (A. E. Bryson and Y.-C. Ho, Applied Optimal
 Control, 1975, section 2.7 (section recalled from memory)); Powered Explicit Guidance
 flies the same law and re-solves its parameters from the state as the burn goes on
-(R. L. McHenry et al., "Space Shuttle Ascent Guidance, Navigation, and Control", Journal
-of the Astronautical Sciences 27(1), 1979). Here the parameters are solved for each
-flight before it flies, by shooting on the compiled flight itself (gravity, drag,
-Earth's rotation and the real thrust history included): Newton's method with a
-finite-difference Jacobian, all samples of a batch at once.
+(R. L. McHenry et al., Journal of the Astronautical Sciences 27(1), 1979). Here the
+parameters are solved for each flight before it flies, by shooting on the compiled
+flight itself (gravity, drag, Earth's rotation and the real thrust history included):
+Newton's method with a finite-difference Jacobian, all samples of a batch at once.
 
 The last stage cuts off when the orbital energy reaches the target's,
 -mu / (r_perigee + r_apogee). The solve asks, at that cutoff, for

@@ -28,6 +28,8 @@ __all__ = ["MAX_POINTS", "CapacityPoint", "CapacityResult", "capacity"]
 
 MAX_POINTS = 200
 """Most points (altitudes times inclinations) one curve may ask for."""
+RECHOOSE = 0.98
+"""The second pass chooses the kick at this fraction of the payload first found."""
 PASSES = 2
 """Payload searches per point when the kick is chosen: found, then re-found at the kick
 that suits the payload found."""
@@ -167,10 +169,13 @@ def capacity(
             if mission.flight.kick_chosen and bounded:
                 for _ in range(PASSES - 1):
                     # the kick chosen for the file's payload may not suit the payload
-                    # found: choose it again there and find the payload once more
-                    resized = _at(mission, altitude, plane, max(payload, 0.0))
-                    payload, kick, bounded, more = _largest_payload(resized, rtol)
+                    # found: choose it again a little below it (at the payload found
+                    # itself no kick has anything to spare) and keep the better answer
+                    resized = _at(mission, altitude, plane, max(RECHOOSE * payload, 0.0))
+                    again, turn, found, more = _largest_payload(resized, rtol)
                     evaluations += more
+                    if found and again > payload:
+                        payload, kick = again, turn
             points.append(CapacityPoint(altitude, plane, payload, kick, bounded, evaluations))
             if progress is not None:
                 progress(len(points), total)
