@@ -4,7 +4,7 @@ VENV ?= .venv
 BIN := $(VENV)/bin
 DEMO_MISSION ?= missions/two_stage_competition.toml
 
-.PHONY: demo test lint typecheck unit bench clean
+.PHONY: demo test lint typecheck docs unit bench clean
 
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
@@ -28,13 +28,17 @@ lint: $(VENV)/.installed-test
 typecheck: $(VENV)/.installed-test
 	$(BIN)/mypy
 
+# The documentation site (docs/, mkdocs.yml) into site/; strict, so a broken link fails.
+docs: $(VENV)/.installed-test
+	$(BIN)/mkdocs build --strict --site-dir site
+
 unit: $(VENV)/.installed-test
 	$(BIN)/python -m pytest
 
-test: lint typecheck unit
+test: lint typecheck docs unit
 
 bench: $(VENV)/.installed-test
 	$(BIN)/python -m pytest tests/benchmarks --benchmark-only -p no:cacheprovider -o addopts=""
 
 clean:
-	rm -rf $(VENV) .pytest_cache .mypy_cache .ruff_cache
+	rm -rf $(VENV) .pytest_cache .mypy_cache .ruff_cache site

@@ -1038,13 +1038,14 @@ def test_mission_wide_residual_leaves_motor_stages_alone() -> None:
 
 
 def test_the_readme_commented_example_loads() -> None:
-    # the README's commented mission file is a file a user may copy: it must load as shown
-    readme = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
-    start = readme.index("```toml", readme.index("### A commented example")) + len("```toml")
+    # the manual's commented mission file is a file a user may copy: it must load as shown
+    page = Path(__file__).resolve().parents[1] / "docs" / "reference" / "mission-file.md"
+    readme = page.read_text(encoding="utf-8")
+    start = readme.index("```toml", readme.index("## A commented example")) + len("```toml")
     text = readme[start : readme.index("```", start)]
     mission = parse_mission(
         tomllib.loads(text),
-        source="README.md",
+        source="docs/reference/mission-file.md",
         base_dir=Path(__file__).resolve().parents[1] / "missions",
     )
     assert [stage.name for stage in mission.vehicle.stages] == ["booster", "sustainer"]
