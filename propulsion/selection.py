@@ -355,6 +355,21 @@ class Candidate:
     unsafe_ignition: bool = False
     """An unguided upper stage lit descending, too slow to steer, or tilted beyond the
     flight warnings' limit: such a stack ranks after every other that meets the target."""
+    propulsion_margin: float = math.nan
+    """Fraction of total impulse the stack may lose and still meet the target [-] (NaN:
+    not computed, for a stack that falls short)."""
+    propulsion_margin_delta_v: float = math.nan
+    """The propulsion margin as ideal delta-v [m/s]."""
+    payload_margin: float = math.nan
+    """Payload that could be added and still meet the target [kg]."""
+    passes: bool | None = None
+    """The verdict `fly` gives the stack, judging the margin ``[margins.flight]`` names
+    (None: not computed)."""
+    flags: tuple[str, ...] = ()
+    """What the plausibility rules warn about: ``"thrust_to_weight"``, ``"rail_exit"``,
+    ``"ignition"`` (see :func:`pick`)."""
+    thrust_to_weight_minimum: float = math.nan
+    """The propellant family's usual minimum liftoff thrust-to-weight [-] (NaN: no family)."""
 
     def to_dict(self) -> dict[str, Any]:
         """Fields keyed with SI unit suffixes, for JSON and DataFrames."""
@@ -386,6 +401,12 @@ class Candidate:
             "warning_count": len(self.warnings),
             "warnings": list(self.warnings),
             "unsafe_ignition": self.unsafe_ignition,
+            "propulsion_margin_fraction": self.propulsion_margin,
+            "propulsion_margin_m_s": self.propulsion_margin_delta_v,
+            "payload_margin_kg": self.payload_margin,
+            "passes_flight_verdict": self.passes,
+            "flags": list(self.flags),
+            "thrust_to_weight_minimum": self.thrust_to_weight_minimum,
         }
 
 
@@ -395,9 +416,9 @@ class PrunedCandidate:
 
     ``reason`` is ``"delta_v"`` (ideal delta-v below the drag-free requirement) or
     ``"thrust_to_weight"`` (liftoff thrust-to-weight below 1). ``apogee_bound`` is the
-    apogee above the site of a drag-free vertical climb on the ideal delta-v (plus the
-    site's rotation speed where the pruning counts it) [m]: no flight of the stack goes
-    higher (see :func:`pick`).
+    apogee above the site of a drag-free vertical climb on the ideal delta-v (over the
+    turning Earth where the flight has it, by the same energy law as the pruning) [m]: no
+    flight of the stack goes higher (see :func:`pick`).
     """
 
     motors: str
@@ -655,7 +676,8 @@ def _stage_counts(stage_counts: Iterable[int] | None, sections: int) -> tuple[in
     if stage_counts is None:
         return tuple(range(1, sections + 1))
     counts = tuple(sorted(set(stage_counts)))
-    valid = f"stage counts from 1 to {sections} (the mission has {sections} stage(s))"
+    stages = "1 stage" if sections == 1 else f"{sections} stages"
+    valid = f"stage counts from 1 to {sections} (the mission has {stages})"
     if not counts:
         raise PickError("no stage count given", valid)
     for count in counts:
@@ -712,28 +734,68 @@ def _choice(
     )
 
 
-def _rotation_speed(mission: Mission) -> float:
+def _spin(mission: Mission) -> float:
+    """(ω cos φ)² of the site [1/s²]: the centrifugal term of a climb over the turning
+    Earth (0 when the flight leaves Earth's rotation out: no latitude and azimuth, or a
+    flat Earth)."""
     launch = mission.launch
-    if not launch.rotation or mission.flight.earth != "round":
+    if not launch.rotation or mission.flight.earth == "flat":
         return 0.0
-    from propulsion.orbits import earth_rotation_speed
+    from propulsion.constants import EARTH_ROTATION_RATE
 
-    assert launch.latitude is not None and launch.azimuth is not None
-    return abs(float(earth_rotation_speed(launch.latitude, launch.azimuth)))
+    assert launch.latitude is not None
+    return (EARTH_ROTATION_RATE * math.cos(launch.latitude)) ** 2
 
 
-def _drag_free_apogee(site_altitude: float, speed: float) -> float:
+def _climb_speed(site_altitude: float, apogee: float, spin: float = 0.0) -> float:
+    """The drag-free vertical burnout speed at the site that coasts to ``apogee`` [m/s].
+
+    Energy law in the frame turning with the Earth, where Coriolis force does no work and
+    the centrifugal force has the potential -½ (ω cos φ)² r²:
+    v² = 2μ (1/r_site - 1/r_apogee) - (ω cos φ)² (r_apogee² - r_site²) (Curtis, Orbital
+    Mechanics for Engineering Students, 3rd ed., 2013, eq. 2.80 with the centrifugal
+    potential), from the same radius as the apogee target's requirement (``targets``).
+    ``spin`` = (ω cos φ)² [1/s²] (see :func:`_spin`); 0 gives the requirement exactly.
+    """
+    from propulsion.constants import EARTH_EQUATORIAL_RADIUS, EARTH_MU
+
+    r_site = EARTH_EQUATORIAL_RADIUS + site_altitude
+    r_top = r_site + apogee
+    square = 2.0 * EARTH_MU * (1.0 / r_site - 1.0 / r_top) - spin * (r_top**2 - r_site**2)
+    return math.sqrt(max(square, 0.0))
+
+
+def _drag_free_apogee(site_altitude: float, speed: float, spin: float = 0.0) -> float:
     """Apogee above the site of a drag-free vertical climb from the site at ``speed`` [m].
 
-    Energy law with inverse-square gravity, v²/2 - μ/r_site = -μ/r_apogee (Curtis,
-    Orbital Mechanics for Engineering Students, 3rd ed., 2013, eq. 2.80), from the same
-    radius as the apogee target's requirement (``targets``); infinite at escape speed.
+    The inverse of :func:`_climb_speed`: the energy law solved for the apogee radius,
+    in closed form without ``spin`` (infinite at escape speed) and by Newton's method
+    from that radius with it (the energy is concave and rising in r below the synchronous
+    radius, so the iterates rise to the root from below).
     """
     from propulsion.constants import EARTH_EQUATORIAL_RADIUS, EARTH_MU
 
     r_site = EARTH_EQUATORIAL_RADIUS + site_altitude
     inverse = 1.0 / r_site - speed**2 / (2.0 * EARTH_MU)
-    return 1.0 / inverse - r_site if inverse > 0 else math.inf
+    if inverse <= 0:
+        return math.inf
+    radius = 1.0 / inverse
+    if spin <= 0:
+        return radius - r_site
+    synchronous = (EARTH_MU / spin) ** (1.0 / 3.0)
+    for _ in range(50):
+        excess = (
+            2.0 * EARTH_MU * (1.0 / r_site - 1.0 / radius)
+            - spin * (radius**2 - r_site**2)
+            - speed**2
+        )
+        step = -excess / (2.0 * EARTH_MU / radius**2 - 2.0 * spin * radius)
+        radius += step
+        if radius >= synchronous:
+            return math.inf
+        if abs(step) <= 1e-9 * radius:
+            break
+    return radius - r_site
 
 
 def _needed_apogee(mission: Mission, target: float) -> float:
@@ -845,16 +907,28 @@ def pick(
     gravity and drag only slow it, so its speed never exceeds the delta-v burnt so far and
     its energy gain never exceeds :math:`\\Delta v^2/2`; a stack whose ideal delta-v is
     below :math:`v` cannot reach the target in any flight. With Earth's rotation the
-    site's rotation speed is subtracted from :math:`v` (energy of the starting speed); a
-    wind's push on a slow rocket is neglected. Stacks whose liftoff thrust-to-weight
-    (average thrust of the first stage over liftoff weight, as in the budget) is below 1
-    are pruned too. Survivors are flown with ``fly(margin=False)``: a candidate meets the
-    target when its apogee reaches the target altitude plus the target margin
-    ``[margins.flight]`` asks for when it judges the target (the needed apogee; the
-    propulsion and payload margins are not computed, and the budget's delta-v margin is
-    not checked). Ties are broken by total impulse. A pruned stack's apogee bound is the
-    drag-free apogee of its ideal delta-v plus the rotation speed, by the same energy
-    law, so its shortfall in :meth:`PickResult.closest` is a least one.
+    energy law is taken in the frame turning with the Earth: the ground's speed is no
+    credit for an apogee (a vertical climb keeps it as sideways speed, which lifts
+    nothing), and all the climb gains is the centrifugal potential,
+    :math:`v^2 = 2\\mu(1/r_0 - 1/r_a) - \\omega^2\\cos^2\\varphi\\,(r_a^2 - r_0^2)`, about 0.2 %
+    of :math:`v` at the equator; the few metres per second a slanted flight could gain as
+    its latitude changes, and a wind's push on a slow rocket, are neglected. Stacks whose
+    liftoff thrust-to-weight (average thrust of the first stage over liftoff weight, as in
+    the budget) is below 1 are pruned too. Survivors are flown with ``fly(margin=False)``:
+    a candidate meets the target when its apogee reaches the target altitude plus the
+    target margin ``[margins.flight]`` asks for when it judges the target (the needed
+    apogee; the budget's delta-v margin is not checked). The stacks that meet it are
+    flown again with ``fly(margin=True)`` for their propulsion and payload margins and
+    the verdict ``fly`` gives them (``passes``); ranking never uses those. Ties are broken
+    by total impulse. A pruned stack's apogee bound is the drag-free apogee of its ideal
+    delta-v by the same energy law, so its shortfall in :meth:`PickResult.closest` is a
+    least one.
+
+    ``flags`` name what the plausibility rules warn about, compactly:
+    ``"thrust_to_weight"`` (liftoff thrust-to-weight below the propellant family's usual
+    minimum, ``data/propellants.csv``), ``"rail_exit"`` (rail exit speed below
+    ``ascent.RAIL_EXIT_SPEED_MIN``) and ``"ignition"`` (an upper stage lights descending,
+    too slow or tilted; such a stack ranks last).
 
     The curve files the user gives are trusted for the run: the candidate documents name
     them by absolute path, and :func:`propulsion.catalog.trusted_folders` lets exactly
@@ -868,7 +942,7 @@ def pick(
     .. [2] Common geometry of equal circles in a circle (the cluster fit).
     """
     from propulsion import catalog
-    from propulsion.ascent import fly
+    from propulsion.ascent import RAIL_EXIT_SPEED_MIN, fly
     from propulsion.ledger import budget
     from propulsion.mission import parse_mission
     from propulsion.thrust_curve import impulse_class
@@ -903,7 +977,7 @@ def pick(
         for section in sections
     ]
     base = {key: value for key, value in mission.document.items() if key not in ("stage", "leg")}
-    rotation = _rotation_speed(mission)
+    spin = _spin(mission)
 
     enumerated = 0
     survivors: list[tuple[str, tuple[str, ...], Any, Mission, Any]] = []
@@ -928,8 +1002,7 @@ def pick(
                 candidate = parse_mission(document, source=mission.source, base_dir=base_dir)
             first = candidate.legs[0]
             target = first.fields["altitude"]
-            allowance = first.fields.get("loss_allowance", 0.0)
-            drag_free = max(first.required_delta_v - allowance - rotation, 0.0)
+            drag_free = _climb_speed(candidate.launch.altitude, target, spin)
             plan = budget(candidate)
             ideal = plan.total_ideal_delta_v
             thrust_to_weight = plan.stages[0].thrust_to_weight
@@ -951,7 +1024,7 @@ def pick(
                         liftoff_thrust_to_weight=thrust_to_weight,
                         ideal_delta_v=ideal,
                         mission=candidate,
-                        apogee_bound=_drag_free_apogee(candidate.launch.altitude, ideal + rotation),
+                        apogee_bound=_drag_free_apogee(candidate.launch.altitude, ideal, spin),
                         choice=_choice(combo),
                     )
                 )
@@ -964,11 +1037,25 @@ def pick(
         )
 
     flown: list[Candidate] = []
+    families = catalog.propellant_families()
     for done, (label, names, combo, candidate, plan) in enumerate(survivors, start=1):
         result = fly(candidate, margin=False)
         impulse = sum(stage.total_impulse for stage in candidate.vehicle.stages)
         verdict = result.verdict
         findings = (*plan.findings, *result.findings)
+        meets = bool(verdict.meets_targets)
+        # the margins cost about ten batched flights: only for the stacks that meet the target
+        full = fly(candidate, margin=True).verdict if meets else None
+        family = families.get(candidate.vehicle.stages[0].propellant_family or "")
+        minimum = family.liftoff_thrust_to_weight_min if family is not None else math.nan
+        thrust_to_weight = plan.stages[0].thrust_to_weight
+        flags = []
+        if 1.0 <= thrust_to_weight < minimum:  # the rule of plausibility.budget_findings
+            flags.append("thrust_to_weight")
+        if result.rail_exit_speed < RAIL_EXIT_SPEED_MIN:  # the rule of the flight warnings
+            flags.append("rail_exit")
+        if any(f.subject == "ignition" for f in result.findings):
+            flags.append("ignition")
         flown.append(
             Candidate(
                 rank=None,
@@ -985,10 +1072,18 @@ def pick(
                 apogee=result.apogee,
                 margin=verdict.target_margin,
                 margin_fraction=verdict.target_margin_fraction,
-                meets_target=bool(verdict.meets_targets),
+                meets_target=meets,
                 warnings=tuple(f"{f.subject}: {f.message}" for f in findings),
                 mission=candidate,
-                unsafe_ignition=any(f.subject == "ignition" for f in result.findings),
+                unsafe_ignition="ignition" in flags,
+                propulsion_margin=math.nan if full is None else full.propulsion_margin,
+                propulsion_margin_delta_v=(
+                    math.nan if full is None else full.propulsion_margin_delta_v
+                ),
+                payload_margin=math.nan if full is None else full.payload_margin,
+                passes=None if full is None else full.meets_targets,
+                flags=tuple(flags),
+                thrust_to_weight_minimum=minimum,
             )
         )
         if progress is not None:

@@ -2,8 +2,10 @@
 
 from __future__ import annotations
 
+import math
+from dataclasses import replace
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 import typer
 
@@ -18,12 +20,67 @@ from propulsion.cli.common import (
 )
 
 if TYPE_CHECKING:
+    import pandas as pd
     from rich.console import RenderableType
 
     from propulsion.studies.compare import CompareResult
     from propulsion.units import DisplayUnits
 
 __all__ = ["compare_command", "compare_view"]
+
+ROUND_OFF = 1e-6
+"""Values closer to zero than this [SI unit of the column] count as zero when the best of
+a column is chosen: the flight's own resolution is rtol × max(ideal Δv, 100 m/s) =
+1e-6 m/s at the default rtol of 1e-8 (``ascent.FlightResult.resolution``)."""
+
+
+def _plural(count: int, word: str) -> str:
+    """``"1 option"``, ``"3 options"``."""
+    return f"{count} {word}" if count == 1 else f"{count} {word}s"
+
+
+def _settled(frame: pd.DataFrame, units: DisplayUnits, digits: int = 4) -> pd.DataFrame:
+    """The frame with round-off set to zero and near-ties made exact, for the best mark.
+
+    In each column that has a better direction, a value within :data:`ROUND_OFF` of zero
+    becomes 0, and a value that shows as the same text as the column's best (``digits``
+    significant figures in display units) takes the best's value: the best mark
+    (:func:`propulsion.report.sheet.best_rows`) then goes to all of them or, when every
+    value ties, to none, never to one of two numbers that read alike.
+    """
+    from propulsion.report.export_tables import unit_dimension
+    from propulsion.studies.compare import COLUMNS
+    from propulsion.units import format_number, to_display
+
+    frame = frame.copy()
+    for name in frame.columns:
+        spec = COLUMNS.get(name)
+        if spec is None or spec.better not in ("min", "max"):
+            continue
+        unit_column = f"{name}_unit"
+        dimensions: list[str | None] = [spec.dimension] * len(frame)
+        if spec.dimension is None and unit_column in frame.columns:
+            dimensions = [unit_dimension(unit) for unit in frame[unit_column]]
+        values: list[Any] = list(frame[name])
+        numbers = {
+            i: 0.0 if abs(float(v)) <= ROUND_OFF else float(v)
+            for i, v in enumerate(values)
+            if isinstance(v, int | float) and not isinstance(v, bool) and math.isfinite(v)
+        }
+        if len(numbers) < 2:
+            continue
+        best = min(numbers.values()) if spec.better == "min" else max(numbers.values())
+
+        def shown(value: float, dimension: str | None) -> str:
+            number = to_display(value, dimension, units) if dimension else value
+            return format_number(number, digits)
+
+        for i, value in numbers.items():
+            if shown(value, dimensions[i]) == shown(best, dimensions[i]):
+                value = best
+            values[i] = value
+        frame[name] = values
+    return frame
 
 
 def compare_view(
@@ -61,9 +118,12 @@ def compare_view(
 
     from propulsion.report.sheet import fit_columns, sheet_view, split_columns
     from propulsion.report.tables import caution_panel, verdict_text
-    from propulsion.studies.compare import COLUMNS, resolve_columns
+    from propulsion.studies.compare import COLUMNS, NAME_WIDTH, option_names, resolve_columns
 
-    frame = result.to_frame()
+    frame = _settled(result.to_frame(), units)
+    # long names give way to the file stem or are cut and numbered: rows never read alike
+    names = option_names(list(frame["name"]), list(frame["source"]), NAME_WIDTH)
+    frame["name"] = names
     hidden: list[str] = []
     if columns is None:
         wanted = [
@@ -89,7 +149,10 @@ def compare_view(
         parts.append(sheet_view(frame, {name: COLUMNS[name] for name in block}, heading, units))
     shown = {name for block in blocks for name in block}
     notes = Text(style="dim")
-    notes.append("Files: " + "; ".join(f"{row.name} = {row.source}" for row in result.rows))
+    if result.changes:
+        notes.append("Changed in every file before it flew: " + "; ".join(result.changes) + ".\n")
+    files = zip(names, result.rows, strict=True)
+    notes.append("Files: " + "; ".join(f"{name} = {row.source}" for name, row in files))
     notes.append(
         "\nIdeal Δv is the budget's (every stage burnt completely); the losses, apogee, "
         "orbit, margins and 'Flight meets' come from the flown ascent of the first leg, as "
@@ -111,13 +174,14 @@ def compare_view(
             "terminal, --json or --export)."
         )
     parts.append(notes)
-    short = [row.name for row in result.rows if row.meets_targets is False]
+    rows = zip(names, result.rows, strict=True)
+    short = [name for name, row in rows if row.meets_targets is False]
     if short:
+        falls = "falls" if len(short) == 1 else "fall"
         line = verdict_text(
             False,
-            f"{len(short)} of {count} option(s) fall short of their flight target: "
-            + ", ".join(short)
-            + ".",
+            f"{len(short)} of {_plural(count, 'option')} {falls} short of "
+            f"{'its' if len(short) == 1 else 'their'} flight target: " + ", ".join(short) + ".",
         )
     else:
         line = verdict_text(True, f"Every option ({count}) meets its flight target.")
@@ -165,15 +229,35 @@ def compare_command(
         "--margin/--no-margin",
         help="Find each delta-v margin by root finding (more flights).",
     ),
+    settings: list[str] | None = typer.Option(
+        None,
+        "--set",
+        help="Change a field in every file before it flies: FIELD=VALUE with the unit, e.g. "
+        'vehicle.payload="0.3 kg" (repeat for more fields).',
+        show_default=False,
+        metavar="FIELD=VALUE",
+    ),
+    target: str | None = typer.Option(
+        None,
+        "--target",
+        help='A new value for every first leg\'s target: an apogee or orbit altitude ("3 km") '
+        'or a burnout speed ("300 m/s").',
+        show_default=False,
+        metavar="VALUE",
+    ),
     units: UnitSystem = UNITS_OPTION,
     json_output: bool = JSON_OPTION,
 ) -> None:
     """Compare options: budget and fly each mission file, and show them side by side.
 
-    One row per file: liftoff mass, ideal delta-v, the losses of the flight, apogee or
-    orbit, margins and verdicts. The best value in each column is marked with ★.
+    One row per file: liftoff mass, motor impulse, ideal delta-v, the losses of the flight,
+    apogee or orbit, margins and verdicts. The best value in each column is marked with ★.
+    --set and --target change every file the same way before it flies (the files on disk
+    stay as they are).
 
     Example: propulsion compare missions/hobby_single_stage.toml missions/two_stage_competition.toml --sort apogee
+
+    Example: propulsion compare missions/*.toml --set vehicle.payload="0.3 kg" --target "3 km"
 
     Exit code 0 when every option meets its flight target, 1 when one falls short, 2 on bad
     input (the message names the file).
@@ -183,7 +267,14 @@ def compare_command(
     from propulsion.mission import load_mission
     from propulsion.report.export_tables import check_export_path, export_table
     from propulsion.report.files import all_or_nothing
-    from propulsion.studies.compare import COLUMNS, compare, resolve_column, resolve_columns
+    from propulsion.studies.compare import (
+        COLUMNS,
+        apply_changes,
+        compare,
+        describe_changes,
+        resolve_column,
+        resolve_columns,
+    )
 
     # the export is moved into place when the block ends without an error
     with guard(), all_or_nothing(*mission_files) as outputs:
@@ -194,20 +285,24 @@ def compare_command(
         outputs.protect(*missions)
         if export is not None:
             check_export_path(export, force)
+        changed = apply_changes(missions, settings or (), target)
+        status = stderr()
         with Progress(
             TextColumn("Flying {task.description}"),
             BarColumn(),
             MofNCompleteColumn(),
-            console=stderr(),
+            console=status,
             transient=True,
-            disable=json_output,
+            # on a pipe or a file the bar would leave an empty line behind
+            disable=json_output or not status.is_terminal,
         ) as bar:
             task = bar.add_task("", total=len(missions))
 
             def advance(done: int, total: int, current: str) -> None:
                 bar.update(task, completed=done, total=total, description=current)
 
-            result = compare(missions, margin=margin, progress=advance)
+            result = compare(changed, margin=margin, progress=advance)
+        result = replace(result, changes=describe_changes(settings or (), target))
         if sort_column is not None:
             result = result.sorted_by(sort_column, descending)
         if export is not None:

@@ -25,7 +25,7 @@ if TYPE_CHECKING:
     from rich.console import RenderableType
     from rich.text import Text
 
-    from propulsion.selection import PickResult, ShortStack
+    from propulsion.selection import Candidate, PickResult, ShortStack
 
     Choice = tuple[tuple[str, int, str | None], ...]
     from propulsion.units import DisplayUnits
@@ -118,7 +118,10 @@ def parse_motors(text: str | Sequence[str] | None) -> list[str | Path] | Path | 
 
 
 def pick_view(result: PickResult, units: DisplayUnits, top: int = 15) -> RenderableType:
-    """The selection as a spreadsheet-like table, best first, with a summary and the caution.
+    """The motor stacks, best first: each stack's ideal Δv against the drag-free need, its
+    flight (apogee, target margin), its propulsion and payload margins, and flags from the
+    plausibility rules; then a summary, the closest stacks when none meets the target, the
+    verdict and the caution.
 
     Parameters
     ----------
@@ -137,6 +140,8 @@ def pick_view(result: PickResult, units: DisplayUnits, top: int = 15) -> Rendera
     from rich.console import Group
     from rich.text import Text
 
+    from propulsion.ascent import RAIL_EXIT_SPEED_MIN
+    from propulsion.report.sheet import _Fitted
     from propulsion.report.tables import (
         _head,
         _num,
@@ -148,45 +153,49 @@ def pick_view(result: PickResult, units: DisplayUnits, top: int = 15) -> Rendera
     )
     from propulsion.selection import CRITERION_TEXT
 
-    length = units.label("length")
+    length, speed = units.label("length"), units.label("speed")
     shown = list(result.rows[: max(top, 0)])
-    title = f"Motor choices, best first by {CRITERION_TEXT[result.criterion]}"
+    need = f"{_q(result.drag_free_delta_v, 'speed', units)} {speed}"
+    title = f"Motor stacks for {result.mission.name}: ideal budget, flight and margins"
+    order = f"Best first by {CRITERION_TEXT[result.criterion]}"
     if result.flown > len(shown):
-        title += f" (top {len(shown)} of {result.flown} flown)"
+        order += f" (the first {len(shown)} of {result.flown} flown)"
     table = _table(title)
+    # the sections name the lines of the motors column, once, in the header; a stack of k
+    # stages flies the top k sections, and a dash stands for each section below them
+    sections = max((row.stages for row in shown), key=len, default=())
     table.add_column("#", justify="right", no_wrap=True)
-    table.add_column("Motors per stage", no_wrap=True)
-    table.add_column(_head("Impulse", "impulse", units), justify="right", min_width=7)
+    table.add_column("Motors: " + ", ".join(sections))
     with_mass = result.criterion == "least_mass"  # the ranked quantity; always in --json
-    if with_mass:
-        table.add_column(_head("Mass", "mass", units), justify="right", min_width=5)
-    table.add_column("T/W", justify="right", min_width=4)
-    table.add_column(_head("Rail exit", "speed", units), justify="right", min_width=5)
-    table.add_column("Mach", justify="right", min_width=5)
-    table.add_column(_head("Apogee", "length", units), justify="right", min_width=6)
-    table.add_column(_head("Margin", "length", units), justify="right", min_width=7)
-    table.add_column("Verdict", min_width=5)
+    impulse = _head("Impulse", "impulse", units)
+    if with_mass:  # under the impulse, on a line of its own: the table stays in 80 columns
+        impulse += f", liftoff {_head('mass', 'mass', units)}"
+    table.add_column(impulse, justify="right")
+    table.add_column(_head("Ideal Δv", "speed", units), justify="right")
+    table.add_column(_head("Apogee", "length", units), justify="right")
+    table.add_column(_head("Target margin", "length", units), justify="right")
+    table.add_column("Propulsion margin (%)", justify="right")
+    table.add_column(_head("Payload margin", "mass", units), justify="right")
+    table.add_column("Flags")
+    rail = f"rail<{_q(RAIL_EXIT_SPEED_MIN, 'speed', units, 2)}"
     for row in shown:
-        margin = _q(row.margin, "length", units)
-        if math.isfinite(row.margin) and row.margin > 0:
-            margin = "+" + margin
-        verdict = Text("meets", style="green") if row.meets_target else Text("short", style="red")
-        if row.unsafe_ignition:
-            verdict.append(" ign", style="bold red")
-        if row.warnings:
-            verdict.append(f" !{len(row.warnings)}", style="yellow")
-        mass = [_q(row.liftoff_mass, "mass", units)] if with_mass else []
+        # a place for the stacks that meet the target, a dash for those that fall short
+        place = Text("—", style="red") if row.rank is None else Text(str(row.rank))
+        total = f"{_q(row.total_impulse, 'impulse', units)} {row.impulse_class}"
+        if with_mass:
+            total += f"\n{_q(row.liftoff_mass, 'mass', units)}"
+        motors = [name if count == 1 else f"{count} × {name}" for name, count, _ in row.choice]
+        label = "\n".join(["—"] * (len(sections) - len(motors)) + motors)
         table.add_row(
-            "—" if row.rank is None else str(row.rank),
-            row.motors.replace("; ", "\n"),
-            f"{_q(row.total_impulse, 'impulse', units)} {row.impulse_class}",
-            *mass,
-            _num(row.liftoff_thrust_to_weight, 3),
-            _q(row.rail_exit_speed, "speed", units, 3),
-            _num(row.max_mach, 3),
+            place,
+            Text(label, no_wrap=True),
+            Text(total, no_wrap=True),
+            _q(row.ideal_delta_v, "speed", units),
             _q(row.apogee, "length", units),
-            margin,
-            verdict,
+            _signed(_q(row.margin, "length", units), row.margin),
+            _signed(_num(row.propulsion_margin * 100.0, 3), row.propulsion_margin),
+            _signed(_q(row.payload_margin, "mass", units, 3), row.payload_margin),
+            _flags(row, rail),
         )
     pruned = result.pruned
     target = f"{_q(result.target_apogee, 'length', units)} {length}"
@@ -196,24 +205,34 @@ def pick_view(result: PickResult, units: DisplayUnits, top: int = 15) -> Rendera
         with_margin = (
             f" with the {_q(asked, 'length', units)} {length} target margin of [margins.flight]"
         )
+    fit = "fits" if result.enumerated == 1 else "fit"
+    meet = "meets" if result.meeting == 1 else "meet"
     summary = Text()
     summary.append(
-        f"{result.enumerated} combination(s) fit the airframe; "
+        f"{order}. {_plural(result.enumerated, 'motor stack')} {fit} the airframe; "
         f"{len(result.pruned_rows)} pruned by the ideal budget "
-        f"({pruned['delta_v']} below the drag-free "
-        f"{_q(result.drag_free_delta_v, 'speed', units)} {units.label('speed')}, "
+        f"({pruned['delta_v']} with less ideal Δv than the drag-free {need}, "
         f"{pruned['thrust_to_weight']} with liftoff T/W below 1); "
-        f"{result.flown} flown; {result.meeting} meet the {target} apogee{with_margin}."
+        f"{result.flown} flown; {result.meeting} {meet} the {target} apogee{with_margin}."
     )
+    minimum = sorted(
+        {row.thrust_to_weight_minimum for row in shown if "thrust_to_weight" in row.flags}
+    )
+    low_thrust = "/".join(f"{value:g}" for value in minimum) if minimum else "n"
     notes = Text(
-        "Flown as `propulsion fly --no-margin` does; 'meets' means the apogee reaches the "
-        "target, with the target margin [margins.flight] asks for when it judges the "
-        "target (its other margins and the budget's margin are not checked). Margin: "
-        "apogee - target. Mass: at liftoff. T/W: liftoff thrust-to-weight (average "
-        "thrust of the first stage). Mach: the highest. ign: an upper stage lights "
-        "descending, too slow to steer or tilted over 20 deg (ranked last). !n: "
-        "plausibility warnings (listed by --json). Clusters need 2, 2.155 and 2.414 motor "
-        "diameters for 2, 3 and 4 motors.",
+        f"#: the place of a stack that meets the target (with the target margin "
+        f"[margins.flight] asks for); —: it falls short. Ideal Δv: the budget's, every "
+        f"stage burnt; no stack with less than the drag-free {need} (the burnout speed "
+        "of a vertical climb that coasts to the target) can reach it. Apogee and target "
+        "margin (apogee - target): flown as `propulsion fly` does. Propulsion margin: "
+        "the share of total impulse the stack may lose; payload margin: the payload it "
+        "could add; both for the stacks that meet the target (— for the others). "
+        "Flags: ok, or thin (the margin [margins.flight] judges is below what it asks); "
+        f"T/W<{low_thrust} (liftoff thrust-to-weight below the propellant family's usual "
+        f"minimum); {rail} (rail exit below {_q(RAIL_EXIT_SPEED_MIN, 'speed', units, 2)} "
+        f"{speed}); ign (an upper stage lights descending, too slow to steer or tilted "
+        "over 20 deg; ranked last); !n (other plausibility warnings, listed by --json). "
+        "Clusters need 2, 2.155 and 2.414 motor diameters for 2, 3 and 4 motors.",
         style="dim",
     )
     closest = result.closest()
@@ -234,9 +253,9 @@ def pick_view(result: PickResult, units: DisplayUnits, top: int = 15) -> Rendera
                 short = "at least " + short
             text += f"; the closest, {first.motors}, is {short}"
         verdict_line = verdict_text(False, text + ".")
-    sheet: RenderableType = table
+    sheet: RenderableType = _Fitted(table)  # numbers stay whole; headers and flags wrap
     if not shown:
-        sheet = Text("No stack was flown: the ideal budget ruled out every combination.")
+        sheet = Text("No stack was flown: the ideal budget ruled out every stack.")
     parts: list[RenderableType] = [mission_summary(result.mission), sheet, summary, notes]
     files = _own_files([*(row.choice for row in shown), *(entry.choice for entry in closest)])
     if files:
@@ -245,6 +264,44 @@ def pick_view(result: PickResult, units: DisplayUnits, top: int = 15) -> Rendera
         parts.extend([Text(), _closest_table(result, closest, units)])
     parts.extend([Text(), verdict_line, caution_panel()])
     return Group(*parts)
+
+
+def _plural(count: int, word: str) -> str:
+    """``"1 motor stack"``, ``"7 motor stacks"``."""
+    return f"{count} {word}" if count == 1 else f"{count} {word}s"
+
+
+def _signed(text: str, value: float) -> str:
+    """A margin's text with a plus sign when it is positive."""
+    return "+" + text if math.isfinite(value) and value > 0 else text
+
+
+def _flags(row: Candidate, rail: str) -> Text:
+    """The compact flags of a stack: what the plausibility rules warn about, or ``ok``."""
+    from rich.text import Text
+
+    parts = []
+    if row.passes is False and row.meets_target:
+        parts.append("thin")
+    if "thrust_to_weight" in row.flags:
+        parts.append(f"T/W<{row.thrust_to_weight_minimum:g}")
+    if "rail_exit" in row.flags:
+        parts.append(rail)
+    if "ignition" in row.flags:
+        parts.append("ign")
+    # the warnings behind the flags are in row.warnings too; count the others
+    flagged = ("rail exit:", "ignition:")
+    others = [
+        warning
+        for warning in row.warnings
+        if not warning.startswith(flagged)
+        and not ("thrust-to-weight" in warning and "usual minimum" in warning)
+    ]
+    if others:
+        parts.append(f"!{len(others)}")
+    if not parts:
+        return Text("ok", style="green")
+    return Text(" ".join(parts), style="yellow")
 
 
 def _own_files(choices: Iterable[Choice]) -> Text | None:
@@ -386,14 +443,16 @@ def pick_command(
                 raise PickError(
                     f"--apogee {apogee!r}: {exc.reason}", 'a height with its unit, such as "3 km"'
                 ) from exc
+        status = stderr()
         with Progress(
             TextColumn("Flying candidate stacks"),
             BarColumn(),
             MofNCompleteColumn(),
             TimeRemainingColumn(),
-            console=stderr(),
+            console=status,
             transient=True,
-            disable=json_output,
+            # on a pipe or a file the bar would leave an empty line behind
+            disable=json_output or not status.is_terminal,
         ) as bar:
             task = bar.add_task("fly", total=None)
 

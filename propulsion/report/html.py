@@ -38,6 +38,7 @@ if TYPE_CHECKING:
     from propulsion.mission import Mission
     from propulsion.plausibility import Finding
     from propulsion.studies.scatter import ScatterResult
+    from propulsion.vehicle import Stage
 
 __all__ = ["DEFAULT_DISPERSION_SAMPLES", "build_report"]
 
@@ -104,6 +105,7 @@ footer { margin-top: 3rem; color: #555; font-size: .9em; border-top: 1px solid #
 
 _SECTIONS = (
     ("summary", "Mission"),
+    ("inputs", "Inputs"),
     ("verdict", "Verdict and margins"),
     ("vehicle", "Vehicle"),
     ("budget", "Ideal delta-v budget"),
@@ -139,9 +141,10 @@ _ASSUMPTIONS = (
     "drag scale. The shipped curves are rough defaults, valid only for vehicles of the "
     "shape they describe; near Mach 1 (the transonic range, about Mach 0.8 to 1.2) the "
     "drag coefficient changes fast and is least certain.",
-    "The atmosphere is the U.S. Standard Atmosphere 1976: no weather, no temperature or "
-    "pressure deviations, no humidity. Wind is only the steady profile the mission file "
-    "states, if any.",
+    "The atmosphere is the U.S. Standard Atmosphere 1976, shifted to the day's site "
+    "temperature, pressure and humidity, or replaced by a sounding up to its top, when "
+    "the mission file gives them (see Inputs). Wind is only the steady profile the "
+    "mission file or its sounding states, if any: no gusts, no turbulence.",
     "Earth is a rotating sphere with inverse-square gravity (WGS 84 equatorial radius and "
     "GM), or the WGS 84 ellipsoid with J2, or flat with standard gravity, as the mission "
     "asks.",
@@ -327,18 +330,10 @@ def _summary(page: _Page, mission: Mission, spread_samples: int | None, seed: in
     if launch.rail_length is not None:
         site.append(f"rail length {_e(_shown(launch.rail_length, 'length', units))} {_e(length)}")
     site.append("Earth's rotation included" if launch.rotation else "Earth's rotation not included")
-    if len(launch.wind_speed):
-        speed = units.label("speed")
-        profile = ", ".join(
-            f"{_shown(w, 'speed', units)} {speed} at {_shown(h, 'length', units)} {length}"
-            for h, w in zip(launch.wind_altitude, launch.wind_speed, strict=True)
-        )
-        site.append(f"steady wind along the launch direction: {_e(profile)}")
-    elif launch.wind_offset:
-        site.append(
-            f"steady wind {_e(_shown(launch.wind_offset, 'speed', units))} "
-            f"{_e(units.label('speed'))} along the launch direction"
-        )
+    if len(launch.wind_speed) or launch.wind_offset:
+        site.append('wind as given (see <a href="#inputs">Inputs</a>)')
+    if not launch.air.is_standard:
+        site.append('the day\'s air (see <a href="#inputs">Inputs</a>)')
     study = (
         _keyed("span", spread_samples, "scatter", "samples", f"{spread_samples:,}", "count")
         + f" samples, seed {_e(seed)}"
@@ -362,6 +357,187 @@ def _summary(page: _Page, mission: Mission, spread_samples: int | None, seed: in
     ]
     rows = "\n".join(f"<dt>{name}</dt><dd>{value}</dd>" for name, value in facts)
     page.add(f'<section id="summary">\n<h2>Mission</h2>\n<dl class="facts">\n{rows}\n</dl>')
+    page.add("</section>")
+
+
+_WIND_ROWS = 12
+"""Wind rows the inputs table shows; a longer profile (a sounding's) is summarised."""
+
+
+def _motor_source(mission: Mission, index: int) -> str:
+    """Where a stage's thrust curve comes from: a shipped motor or the user's file."""
+    stage = mission.vehicle.stages[index]
+    tables = mission.document.get("stage")
+    table = tables[index] if isinstance(tables, list) and index < len(tables) else {}
+    motor = table.get("motor", {}) if isinstance(table, dict) else {}
+    scales = ""
+    if isinstance(motor, dict):
+        asked = [
+            f"{key} = {motor[key]}" for key in ("impulse_scale", "burn_time_scale") if key in motor
+        ]
+        scales = f", with {' and '.join(asked)}" if asked else ""
+    if isinstance(motor, dict) and "file" in motor:
+        return f"the file {motor['file']}{scales}"
+    name = _motor_name(stage)
+    return f"the shipped motor {name} (data/motors/{name}.csv){scales}"
+
+
+def _motor_name(stage: Stage) -> str:
+    """The name of a stage's motor ("engine" for an engine stage)."""
+    from propulsion.vehicle import Motor
+
+    return stage.propulsion.name if isinstance(stage.propulsion, Motor) else "engine"
+
+
+def _air_text(mission: Mission, units: DisplayUnits) -> str:
+    """The atmosphere the flight used, in words."""
+    air = mission.launch.air
+    if air.is_standard:
+        return (
+            "the U.S. Standard Atmosphere 1976, the standard day (the file gives no "
+            "temperature, pressure, humidity or sounding; dry air)"
+        )
+    parts = []
+    if air.sounding is not None:
+        launch = mission.document.get("launch", {})
+        name = launch.get("sounding", "") if isinstance(launch, dict) else ""
+        top = _shown(air.sounding.altitude[-1], "length", units)
+        parts.append(
+            f"the sounding {name} ({len(air.sounding.altitude)} rows up to {top} "
+            f"{units.label('length')} above sea level, the standard atmosphere above it)"
+        )
+    if air.temperature is not None:
+        parts.append(
+            f"site temperature {format_number(air.temperature, 4)} K "
+            f"({format_number(air.temperature - 273.15, 3)} °C)"
+        )
+    if air.temperature_offset is not None:
+        parts.append(f"temperatures {format_number(air.temperature_offset, 3)} K from the standard")
+    if air.pressure is not None:
+        parts.append(
+            f"site pressure {_shown(air.pressure, 'pressure', units)} {units.label('pressure')}"
+        )
+    if air.humidity is not None:
+        parts.append(f"relative humidity {format_number(air.humidity * 100.0, 3)} %")
+    return "; ".join(parts)
+
+
+def _wind_rows(mission: Mission, units: DisplayUnits) -> tuple[list[str], str]:
+    """The wind profile as table rows, and a sentence on what else shapes it."""
+    launch = mission.launch
+    speed = units.label("speed")
+    rows = []
+    directions = launch.wind_from or (math.nan,) * len(launch.wind_speed)
+    for height, value, source in list(
+        zip(launch.wind_altitude, launch.wind_speed, directions, strict=True)
+    )[:_WIND_ROWS]:
+        towards = (
+            "along the launch azimuth"
+            if math.isnan(source)
+            else f"from {format_number(math.degrees(source) % 360.0, 3)} deg"
+        )
+        rows.append(
+            f'<tr><td class="num">{_e(_shown(height, "length", units))}</td>'
+            f'<td class="num">{_e(_shown(value, "speed", units))}</td><td>{_e(towards)}</td></tr>'
+        )
+    notes = []
+    if len(launch.wind_speed) > _WIND_ROWS:
+        notes.append(f"the first {_WIND_ROWS} of {len(launch.wind_speed)} rows are shown")
+    if launch.wind_offset:
+        notes.append(
+            f"a steady {_shown(launch.wind_offset, 'speed', units)} {speed} along the launch "
+            "azimuth is added at every height"
+        )
+    if launch.wind_scale != 1.0:
+        notes.append(f"the rows are scaled by {format_number(launch.wind_scale, 3)}")
+    if launch.wind_turn:
+        notes.append(
+            f"their directions turned by {format_number(math.degrees(launch.wind_turn), 3)} deg"
+        )
+    if not rows and not launch.wind_offset:
+        notes.append("no wind")
+    return rows, "; ".join(notes)
+
+
+def _inputs(page: _Page, mission: Mission, figures: Sequence[str]) -> None:
+    """What went in: masses, sizes, drag, thrust curves with their sources, air and wind."""
+    units = page.units
+    vehicle = mission.vehicle
+    mass, length = units.label("mass"), units.label("length")
+    page.add('<section id="inputs">\n<h2>Inputs</h2>')
+    page.add(
+        "<p>What the mission file gives, as the budget and the flight above used it "
+        f"(from <code>{_e(mission.source)}</code>).</p>"
+    )
+
+    def cells(values: Sequence[str], numeric: bool = True) -> list[str]:
+        css = ' class="num"' if numeric else ""
+        return [f"<td{css}>{_e(value)}</td>" for value in values]
+
+    def shown(values: Sequence[float | None], dimension: str) -> list[str]:
+        return cells(["—" if v is None else _shown(v, dimension, units) for v in values])
+
+    rows = [
+        _row("Payload", shown([vehicle.payload_mass], "mass"), mass),
+        _row("Liftoff mass", shown([vehicle.liftoff_mass], "mass"), mass),
+        _row("Drag scale (on every drag curve)", cells([format_number(vehicle.drag_scale, 3)]), ""),
+    ]
+    page.add(_table("Vehicle", ["", "Unit", "Value"], rows, 2))
+
+    stages = vehicle.stages
+    propulsion = []
+    sources = []
+    for index, stage in enumerate(stages):
+        what = "motor" if stage.is_motor else "engine"
+        count = f"{stage.count} × " if stage.count > 1 else ""
+        propulsion.append(f"{count}{_motor_name(stage) if stage.is_motor else what}")
+        sources.append(
+            _motor_source(mission, index)
+            if stage.is_motor
+            else "thrust and specific impulse given in the mission file"
+        )
+    drag = [s.drag_curve.name if s.drag_curve is not None else "—" for s in stages]
+    # diameters in mm or in (1 in = 25.4 mm exactly, international yard and pound, 1959)
+    small, per_metre = ("mm", 1000.0) if units.system == "si" else ("in", 1.0 / 0.0254)
+    diameters = [
+        "—" if s.diameter is None else format_number(s.diameter * per_metre, 3) for s in stages
+    ]
+    inert = shown([s.inert_mass for s in stages], "mass")
+    rows = [
+        _row(
+            "Inert mass (motor cases included)"
+            if any(s.is_motor for s in stages)
+            else "Inert mass",
+            inert,
+            mass,
+        ),
+        _row("Propellant", shown([s.propellant_mass for s in stages], "mass"), mass),
+        _row("Diameter", cells(diameters), small),
+        _row("Drag curve", cells(drag, False), ""),
+        _row("Propulsion", cells(propulsion, False), ""),
+        _row("Thrust data from", cells(sources, False), ""),
+        _row("Separation delay", shown([s.separation_delay for s in stages], "time"), "s"),
+        _row("Ignition delay", shown([s.ignition_delay for s in stages], "time"), "s"),
+    ]
+    header = ["", "Unit", *(stage.name for stage in stages)]
+    page.add(_table("Stages as given (in firing order)", header, rows, 2))
+    page.add(
+        f"<p>Air: {_e(_air_text(mission, units))}.</p>",
+    )
+    wind, wind_note = _wind_rows(mission, units)
+    if wind:
+        page.add(
+            _table(
+                "Wind (heights above the site; directions it blows from, clockwise from north)",
+                [_head("Height", length), _head("Wind speed", units.label("speed")), "Direction"],
+                wind,
+                0,
+            )
+        )
+    if wind_note:
+        page.add(f"<p>Wind: {_e(wind_note)}.</p>")
+    for figure in figures:
+        page.add(figure)
     page.add("</section>")
 
 
@@ -515,28 +691,35 @@ def _verdicts(page: _Page, plan: BudgetResult, flown: FlightResult) -> None:
     page.add(_table("Ideal budget (loss allowances)", ["", "Unit", "Value"], rows, 2))
 
     key = [
-        ("Apogee above the site", flown.apogee, "apogee_m", "length", 4),
-        ("Time to apogee", flown.apogee_time, "apogee_time_s", "time", 4),
+        ("Apogee above the site", flown.apogee, "apogee_m", "length", 4, None),
+        ("Time to apogee", flown.apogee_time, "apogee_time_s", "time", 4, None),
         (
             "Max dynamic pressure",
             flown.max_dynamic_pressure,
             "max_dynamic_pressure_pa",
             "pressure",
             4,
+            None,
         ),
-        ("Max Mach", flown.max_mach, "max_mach", None, 3),
+        ("Max Mach", flown.max_mach, "max_mach", None, 3, None),
+        # in multiples of standard gravity, in both unit systems
         (
-            "Max acceleration (g)",
+            "Max acceleration",
             flown.max_acceleration / STANDARD_GRAVITY,
             "max_acceleration_g",
             None,
             3,
+            "g",
         ),
-        ("Rail exit speed", flown.rail_exit_speed, "rail_exit_speed_m_s", "speed", 4),
+        ("Rail exit speed", flown.rail_exit_speed, "rail_exit_speed_m_s", "speed", 4, None),
     ]
     rows = [
-        _row(label, [page.cell(value, "fly", json_key, dimension, digits)], page.label(dimension))
-        for label, value, json_key, dimension, digits in key
+        _row(
+            label,
+            [page.cell(value, "fly", json_key, dimension, digits)],
+            unit if unit is not None else page.label(dimension),
+        )
+        for label, value, json_key, dimension, digits, unit in key
     ]
     rows.append(_row("How the flight ended", [f"<td>{_e(flown.status)}</td>"], ""))
     if flown.orbit is not None:
@@ -564,8 +747,9 @@ def _vehicle(page: _Page, plan: BudgetResult) -> None:
     vehicle = mission.vehicle
     mass = units.label("mass")
     page.add('<section id="vehicle">\n<h2>Vehicle</h2>')
+    count = len(vehicle.stages)
     page.add(
-        f"<p>{len(vehicle.stages)} stage(s) in firing order; payload "
+        f"<p>{count} stage{'' if count == 1 else 's'} in firing order; payload "
         f"{_e(_shown(vehicle.payload_mass, 'mass', units))} {_e(mass)}, liftoff mass "
         f"{_e(_shown(vehicle.liftoff_mass, 'mass', units))} {_e(mass)}.</p>"
     )
@@ -676,15 +860,33 @@ def _budget(page: _Page, plan: BudgetResult) -> None:
                 "Available at start", "available_delta_v", "available_delta_v_m_s", "speed", speed
             ),
             leg_line("Delivered", "delivered_delta_v", "delivered_delta_v_m_s", "speed", speed),
-            leg_line("Margin", "margin", "margin_m_s", "speed", speed, "strong"),
-            _row(
-                "Margin",
-                [
-                    page.percent(leg.margin_fraction, "budget", f"legs.{j}.margin_fraction")
-                    for j, leg in enumerate(legs)
-                ],
-                "%",
-            ),
+        ]
+        # each leg's margin is what is left beyond its own need and the later legs'; when
+        # every leg burns just what it needs, it is one number, said once under the table
+        first = legs[0].margin
+        same = len(legs) > 1 and all(
+            abs(leg.margin - first) <= 1e-9 * max(abs(first), 1.0) for leg in legs
+        )
+        if not same:
+            rows += [
+                leg_line(
+                    "Margin beyond this and the later legs",
+                    "margin",
+                    "margin_m_s",
+                    "speed",
+                    speed,
+                    "strong",
+                ),
+                _row(
+                    "Margin, share of this leg's need",
+                    [
+                        page.percent(leg.margin_fraction, "budget", f"legs.{j}.margin_fraction")
+                        for j, leg in enumerate(legs)
+                    ],
+                    "%",
+                ),
+            ]
+        rows += [
             leg_line("Propellant used", "propellant_used", "propellant_used_kg", "mass", mass),
             leg_line(
                 "Propellant left in its stages",
@@ -697,6 +899,13 @@ def _budget(page: _Page, plan: BudgetResult) -> None:
         ]
         header = ["", "Unit", *(leg.name for leg in legs)]
         page.add(_table("Mission legs (flown in order)", header, rows, 2))
+        if same:
+            page.add(
+                "<p>Margin beyond every leg's need, the same at each leg (each burns just "
+                "what it needs): <strong>"
+                + page.quantity(first, "budget", "legs.0.margin_m_s", "speed")
+                + "</strong>, before the mission reserve.</p>"
+            )
         items = []
         for leg in plan.mission.legs:
             terms = " ".join(
@@ -934,7 +1143,8 @@ def _dispersion(page: _Page, mission: Mission, spread: ScatterResult | None, fig
     if invalid:
         reasons = ", ".join(f"{name} {count}" for name, count in spread.invalid_reasons.items())
         page.add(
-            f"<p>{invalid:,} sample(s) gave an impossible vehicle and were not flown "
+            f"<p>{invalid:,} {'sample gave' if invalid == 1 else 'samples gave'} an "
+            f"impossible vehicle and {'was' if invalid == 1 else 'were'} not flown "
             f"({_e(reasons)}).</p>"
         )
     source = (
@@ -1088,6 +1298,27 @@ def build_report(
             progress=lambda done, total: say(f"Flying dispersed samples: {done:,}/{total:,}…"),
         )
     say("Drawing the figures…")
+    scale = mission.vehicle.drag_scale
+    scaled = f", as given and times the drag scale {format_number(scale, 3)}" if scale != 1 else ""
+    inputs = [
+        _figure(
+            _png(plots, plots.drag_curve_figure(mission, units)),
+            "Drag coefficient against Mach number",
+            f"The drag curves of the stages{scaled}.",
+        )
+    ]
+    for index, stage in enumerate(mission.vehicle.stages):
+        if stage.is_motor:
+            inputs.append(
+                _figure(
+                    _png(plots, plots.thrust_curve_figure(stage, mission, units)),
+                    f"Thrust curve of stage {stage.name}",
+                    f"Thrust curve of stage {stage.name}: {_motor_name(stage)}, from "
+                    f"{_motor_source(mission, index)}, as flown"
+                    + (f" ({stage.count} motors)" if stage.count > 1 else "")
+                    + ".",
+                )
+            )
     flight_png = _png(plots, plots.flight_figure(flown, units))
     flight_ledger_png = _png(plots, plots.flight_ledger_figure(flown, units))
     budget_ledger_png = _png(plots, plots.budget_ledger_figure(plan, units))
@@ -1118,6 +1349,7 @@ def build_report(
     )
     page.add(f'<nav aria-label="Contents"><strong>Contents</strong><ol>{contents}</ol></nav>')
     _summary(page, mission, spread.samples if spread is not None else None, seed)
+    _inputs(page, mission, inputs)
     _verdicts(page, plan, flown)
     _vehicle(page, plan)
     _budget(page, plan)

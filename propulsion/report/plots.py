@@ -30,6 +30,7 @@ import numpy.typing as npt
 from propulsion import __version__
 from propulsion.atmosphere import TOP_ALTITUDE
 from propulsion.errors import RequestError
+from propulsion.text import plural
 from propulsion.units import DisplayUnits, format_number, to_display
 
 if TYPE_CHECKING:
@@ -43,6 +44,7 @@ if TYPE_CHECKING:
     from propulsion.studies.capacity import CapacityResult
     from propulsion.studies.scatter import ScatterResult
     from propulsion.studies.sweep import SweepResult
+    from propulsion.vehicle import DragCurve, Stage
 
 __all__ = [
     "FIGURE_SIZE",
@@ -51,6 +53,7 @@ __all__ = [
     "PlotError",
     "budget_ledger_figure",
     "check_plot_path",
+    "drag_curve_figure",
     "figure_bytes",
     "flight_figure",
     "flight_ledger_figure",
@@ -60,6 +63,7 @@ __all__ = [
     "split_curve",
     "split_figure",
     "sweep_figure",
+    "thrust_curve_figure",
 ]
 
 FloatArray = npt.NDArray[np.float64]
@@ -83,17 +87,23 @@ GRID = "#dedede"
 """The thin grid."""
 _G0 = 9.80665  # standard gravity [m/s²] (CGPM 1901), for accelerations shown in g
 
-# Short labels and line styles of the events marked on the flight figure.
-_EVENT_STYLE: tuple[tuple[str, str, str | tuple[int, tuple[int, ...]]], ...] = (
-    ("rail exit", "rail exit", (0, (1, 2))),
-    (" burnout", "b/o", "--"),
-    (" separation", "sep.", ":"),
-    (" ignition", "ign.", "-."),
-    ("max dynamic pressure", "max q", (0, (6, 2, 1, 2))),
-    ("engine cutoff (orbit)", "cutoff", "-"),
-    ("apogee", "apogee", "-"),
-    ("ground impact", "impact", "-"),
+# Short labels of the events marked on the flight figure's event strip (a leading space:
+# the end of a stage's event name, "booster burnout" -> "booster b/o").
+_EVENT_LABELS: tuple[tuple[str, str], ...] = (
+    ("rail exit", "rail exit"),
+    (" burnout", "b/o"),
+    (" separation", "sep."),
+    (" ignition", "ign."),
+    ("max dynamic pressure", "max q"),
+    ("engine cutoff (orbit)", "cutoff"),
+    ("apogee", "apogee"),
+    ("ground impact", "impact"),
 )
+EVENT_STRIP_RATIO = 0.42
+"""Height of the flight figure's event strip, as a share of one time panel's [-]."""
+EVENT_FONT_SIZE = 6.5
+"""Size of the event labels [pt]."""
+_EVENT_LANES = (0.6, 0.33, 0.06)  # heights of the label lanes in the strip [axes fraction]
 
 # Dispersed fields that move the apogee sideways: the wind and the launch angles.
 _SIDEWAYS_FIELDS = ("wind_speed", "elevation", "azimuth")
@@ -350,23 +360,37 @@ def _is_orbital(result: FlightResult) -> bool:
     return result.orbit is not None or bool(legs and legs[0].target == "circular_orbit")
 
 
-def _event_mark(name: str) -> tuple[str, str | tuple[int, tuple[int, ...]]] | None:
-    """Short label and line style of an event, or None for events not marked."""
-    for key, short, style in _EVENT_STYLE:
+def _event_label(name: str) -> str | None:
+    """Short label of an event, or None for events not marked."""
+    for key, short in _EVENT_LABELS:
         if key.startswith(" ") and name.endswith(key):
-            return f"{name[: -len(key)]} {short}", style
+            return f"{name[: -len(key)]} {short}"
         if name == key:
-            return short, style
+            return short
     return None
+
+
+def _apart(inertial: FloatArray, ground: FloatArray) -> bool:
+    """Whether the inertial speed line would show apart from the ground speed line: they
+    differ somewhere by at least 1 % of the ground speed's largest value."""
+    if not inertial.size:
+        return False
+    scale = float(np.nanmax(np.abs(ground))) if ground.size else 0.0
+    gap = np.abs(inertial - ground)
+    return bool(np.nanmax(gap) >= 0.01 * scale) if scale > 0 else bool(np.nanmax(gap) > 0)
 
 
 def flight_figure(result: FlightResult, units: DisplayUnits) -> Figure:
     """The flown ascent against time: altitude, speed, acceleration, Mach, dynamic pressure.
 
     Events (rail exit, burnouts, separations, ignitions, maximum dynamic pressure, engine
-    cutoff, apogee) are marked with vertical lines and short labels. Orbital missions (an
-    osculating orbit at the end, or a first leg aiming at a circular orbit) get a sixth
-    panel: altitude against downrange.
+    cutoff, apogee) sit on a thin strip of their own under the time axis: a short tick at
+    each event's time and a horizontal label, labels that would touch moved to a lower
+    lane or joined (see :func:`_event_strip`). The inertial speed is drawn only where it
+    stands apart from the ground speed (by 1 % of the panel's top speed or more; without
+    Earth's rotation the two are the same line). Orbital missions (an osculating orbit at
+    the end, or a first leg aiming at a circular orbit) get a last panel: altitude
+    against downrange.
 
     Parameters
     ----------
@@ -381,8 +405,9 @@ def flight_figure(result: FlightResult, units: DisplayUnits) -> Figure:
     -------
     matplotlib.figure.Figure
         8 x 9 in at 100 dpi. Lines carry the gids ``altitude``, ``speed`` (relative to the
-        ground), ``inertial_speed``, ``acceleration``, ``mach``, ``dynamic_pressure``,
-        ``altitude_downrange`` and ``event:<name>``.
+        ground), ``inertial_speed`` (when drawn), ``acceleration``, ``mach``,
+        ``dynamic_pressure``, ``altitude_downrange`` and ``event:<name>`` (the ticks, on
+        the axes whose gid is ``event_strip``).
 
     References
     ----------
@@ -395,13 +420,17 @@ def flight_figure(result: FlightResult, units: DisplayUnits) -> Figure:
     orbital = _is_orbital(result)
     mission = result.mission
     figure = _new_figure(FLIGHT_FIGURE_SIZE, mission, f"{mission.name}: the flown ascent")
-    rows = 6 if orbital else 5
     time = _column(frame, "time_s")
     length = _factor("length", units)
     speed = _factor("speed", units)
     pressure = _factor("pressure", units)
-    top = figure.add_subplot(rows, 1, 1)
-    panels = [top] + [figure.add_subplot(rows, 1, k, sharex=top) for k in range(2, 6)]
+    # five time panels, the event strip under the last one's time axis, and for an orbit
+    # the altitude against downrange
+    ratios = [1.0] * 5 + [EVENT_STRIP_RATIO] + ([1.15] if orbital else [])
+    grid = figure.add_gridspec(len(ratios), 1, height_ratios=ratios)
+    top = figure.add_subplot(grid[0])
+    panels = [top] + [figure.add_subplot(grid[k], sharex=top) for k in range(1, 5)]
+    strip = figure.add_subplot(grid[5], sharex=top)
     for ax in panels:
         _style(ax)
     for ax in panels[:-1]:
@@ -434,20 +463,34 @@ def flight_figure(result: FlightResult, units: DisplayUnits) -> Figure:
             )
         ax.plot(time, data, color=INK, lw=1.3, gid=gid, label=label)
         ax.set_ylabel(ylabel or _label("Dyn. pressure", "pressure", units))
-    panels[1].plot(
-        time,
-        _column(frame, "inertial_speed_m_s") * speed,
-        color=INK,
-        lw=1.0,
-        ls="--",
-        gid="inertial_speed",
-        label="inertial",
-    )
-    _legend(panels[1], loc="best")
+    ground = _column(frame, "speed_m_s")
+    inertial = _column(frame, "inertial_speed_m_s")
+    if _apart(inertial, ground):
+        panels[1].plot(
+            time,
+            inertial * speed,
+            color=INK,
+            lw=1.0,
+            ls="--",
+            gid="inertial_speed",
+            label="inertial",
+        )
+        _legend(panels[1], loc="best")
+    else:
+        panels[1].text(
+            0.99,
+            0.9,
+            "relative to the ground; the inertial speed lies on this line (within 1 %)",
+            transform=panels[1].transAxes,
+            ha="right",
+            va="top",
+            fontsize=7,
+            color=GREY,
+        )
     panels[-1].set_xlabel("Time (s)")
     if time.size:
         top.set_xlim(float(time[0]), float(time[-1]))
-    _mark_events(result, panels)
+    _event_strip(result, strip)
     facts = []
     if math.isfinite(result.apogee):
         when = format_number(result.apogee_time)
@@ -461,7 +504,7 @@ def flight_figure(result: FlightResult, units: DisplayUnits) -> Figure:
         )
     top.set_title("; ".join(facts), fontsize=8, color=GREY, loc="left")
     if orbital:
-        ax = figure.add_subplot(rows, 1, 6)
+        ax = figure.add_subplot(grid[6])
         _style(ax)
         ax.plot(
             _column(frame, "downrange_m") * length,
@@ -476,39 +519,228 @@ def flight_figure(result: FlightResult, units: DisplayUnits) -> Figure:
     return figure
 
 
-def _mark_events(result: FlightResult, panels: Sequence[Axes]) -> None:
-    """Vertical lines at the events on every time panel, short labels on the top one."""
+def _text_width(text: str, size: float) -> float:
+    """Width of a text in the figures' font [pt], from its glyph outlines (no renderer)."""
+    from matplotlib.textpath import TextPath
+
+    return float(TextPath((0.0, 0.0), text, size=size).get_extents().width)
+
+
+@dataclass
+class _Label:
+    """An event label on the strip: its text, lane and extent [axes fraction]."""
+
+    text: str
+    lane: int
+    left: float
+    right: float
+    anchor: float
+    align: str
+
+
+def _event_strip(result: FlightResult, strip: Axes) -> None:
+    """The events along a strip of their own under the time axis: a short tick at each
+    event's time and a horizontal label beside it.
+
+    A label that would touch the one before it in its lane goes to the next lane down;
+    when every lane is taken it joins the label nearest before it (``"max q, sustainer
+    b/o"``). Label widths come from the glyph outlines and the strip's width is taken a
+    little narrower than it will be, so labels never touch once drawn.
+    """
+    strip.set_gid("event_strip")
+    strip.set_ylim(0.0, 1.0)
+    strip.set_yticks([])
+    strip.set_facecolor("none")
+    strip.tick_params(axis="x", bottom=False, labelbottom=False)
+    for side in ("left", "right", "bottom"):
+        strip.spines[side].set_visible(False)
+    strip.spines["top"].set_color(GREY)
+    strip.spines["top"].set_linewidth(0.6)
+    strip.set_ylabel("Events", fontsize=8, color=INK, rotation=0, ha="right", va="center")
     marks = []
     for event in result.events:
-        mark = _event_mark(event.name)
-        if mark is None or not math.isfinite(event.time):
+        short = _event_label(event.name)
+        if short is None or not math.isfinite(event.time):
             continue
-        label, style = mark
-        for ax in panels:
-            ax.axvline(
-                event.time, color=GREY, lw=0.7, ls=style, gid=f"event:{event.name}", zorder=1
-            )
-        marks.append((event.time, label))
-    top = panels[0]
-    low, high = top.get_xlim()
-    span = high - low if high > low else 1.0
-    placed = -1.0
-    for time, label in sorted(marks):
-        # labels closer than a label's height are pushed right so they stay readable
-        where = max((time - low) / span, placed + 0.022)
-        placed = where
-        right_edge = where > 0.95  # at the right edge the label goes left of its line
-        top.text(
-            where - 0.004 if right_edge else where + 0.004,
-            0.96,
-            label,
-            transform=top.transAxes,
-            rotation=90,
-            fontsize=6.5,
-            color=GREY,
-            ha="right" if right_edge else "left",
-            va="top",
+        strip.plot(
+            [event.time, event.time],
+            [1.0, 0.8],
+            color=INK if event.name == "apogee" else GREY,
+            lw=0.9,
+            gid=f"event:{event.name}",
+            clip_on=False,
         )
+        marks.append((event.time, short))
+    low, high = strip.get_xlim()
+    span = high - low if high > low else 1.0
+    # the strip's width [pt], taken narrower than the layout makes it (the y labels and
+    # ticks on the left take about 0.8 in of the 8 in)
+    width = FLIGHT_FIGURE_SIZE[0] * 72.0 * 0.84
+    pad, gap = 3.0 / width, 6.0 / width  # from the tick, and between labels [fraction]
+    ends = [-math.inf] * len(_EVENT_LANES)
+    placed: list[_Label] = []
+    for time, text in sorted(marks):
+        where = (time - low) / span
+        size = _text_width(text, EVENT_FONT_SIZE) / width
+        label = _Label(text, 0, where + pad, where + pad + size, where + pad, "left")
+        if label.right > 1.0:  # at the right end the label goes left of its tick
+            label = _Label(text, 0, where - pad - size, where - pad, where - pad, "right")
+        lane = next((k for k, end in enumerate(ends) if end + gap <= label.left), None)
+        if lane is None and placed:
+            # every lane is taken: join the label nearest before it
+            last = max(placed, key=lambda item: item.right)
+            last.text += f", {text}"
+            grown = _text_width(last.text, EVENT_FONT_SIZE) / width
+            if last.align == "left":
+                last.right = last.left + grown
+            else:
+                last.left = last.right - grown
+            ends[last.lane] = max(ends[last.lane], last.right)
+            continue
+        label.lane = lane or 0
+        ends[label.lane] = label.right
+        placed.append(label)
+    for label in placed:
+        strip.text(
+            label.anchor,
+            _EVENT_LANES[label.lane],
+            label.text,
+            transform=strip.transAxes,
+            fontsize=EVENT_FONT_SIZE,
+            color=GREY,
+            ha=label.align,
+            va="bottom",
+            clip_on=False,
+        )
+
+
+# --- inputs ------------------------------------------------------------------------------
+
+INPUT_FIGURE_SIZE = (8.0, 3.2)
+"""Size of the pictures of the inputs (a thrust curve, the drag curves) [in]."""
+
+
+def thrust_curve_figure(stage: Stage, mission: Mission, units: DisplayUnits) -> Figure:
+    """A motor stage's thrust curve as the flight uses it (after any impulse or burn-time
+    scale of the mission file), with the cluster's total when the stage flies several.
+
+    Parameters
+    ----------
+    stage : Stage
+        A motor stage of ``mission`` (SI: the motor's time [s] and thrust [N]).
+    mission : Mission
+        The mission (its name goes into the caption).
+    units : DisplayUnits
+        Display units: thrust in [N] or [lbf], impulse in [N·s] or [lbf·s].
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        8 x 3.2 in. Lines carry the gids ``thrust_curve`` (one motor) and
+        ``cluster_thrust`` (every motor of the stage, when more than one).
+
+    Raises
+    ------
+    ValueError
+        An engine stage (it has no thrust curve).
+
+    References
+    ----------
+    .. [1] G. P. Sutton and O. Biblarz, Rocket Propulsion Elements, 9th ed., 2017,
+       chapter 2 (total impulse, the integral of thrust over time).
+    """
+    from propulsion.vehicle import Motor
+
+    motor = stage.propulsion
+    if not isinstance(motor, Motor):
+        raise ValueError(f"stage '{stage.name}' flies engines, not a motor with a thrust curve")
+    force = _factor("force", units)
+    title = f"Thrust curve of stage {stage.name}: {motor.name}"
+    figure = _new_figure(INPUT_FIGURE_SIZE, mission, title)
+    ax = figure.add_subplot(1, 1, 1)
+    _style(ax)
+    thrust = motor.thrust * force
+    ax.plot(motor.time, thrust, color=INK, lw=1.3, gid="thrust_curve", label="one motor")
+    if stage.count > 1:
+        ax.plot(
+            motor.time,
+            thrust * stage.count,
+            color=INK,
+            lw=1.0,
+            ls="--",
+            gid="cluster_thrust",
+            label=f"{stage.count} motors",
+        )
+        _legend(ax, loc="best")
+    ax.set_xlabel("Time from ignition (s)")
+    ax.set_ylabel(_label("Thrust", "force", units))
+    ax.set_xlim(left=0.0)
+    ax.set_ylim(bottom=0.0)
+    facts = [
+        f"total impulse {_shown(motor.total_impulse, 'impulse', units)} ({motor.impulse_class})",
+        f"burn time {format_number(motor.burn_time, 3)} s",
+        f"average thrust {_shown(motor.average_thrust, 'force', units)}",
+        f"propellant {_shown(motor.propellant_mass, 'mass', units)}",
+    ]
+    ax.set_title("; ".join(facts), fontsize=8, color=GREY, loc="left")
+    return figure
+
+
+def drag_curve_figure(mission: Mission, units: DisplayUnits) -> Figure:
+    """The drag coefficient against Mach number of every drag curve the stages use, as
+    given and, when the vehicle's drag scale is not 1, as flown (scaled).
+
+    Parameters
+    ----------
+    mission : Mission
+        The mission (SI; its vehicle's stages hold the drag curves).
+    units : DisplayUnits
+        Display units (the axes are dimensionless; kept for a uniform signature).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        8 x 3.2 in. Lines carry the gids ``drag_curve:<name>`` and, with a drag scale,
+        ``drag_curve_scaled:<name>``.
+    """
+    figure = _new_figure(INPUT_FIGURE_SIZE, mission, "Drag coefficient against Mach number")
+    ax = figure.add_subplot(1, 1, 1)
+    _style(ax)
+    scale = mission.vehicle.drag_scale
+    curves: dict[str, DragCurve] = {}
+    for stage in mission.vehicle.stages:
+        if stage.drag_curve is not None:
+            curves.setdefault(stage.drag_curve.name, stage.drag_curve)
+    styles = ("-", "-.", ":")
+    for index, (name, curve) in enumerate(curves.items()):
+        style = styles[index % len(styles)]
+        ax.plot(
+            curve.mach,
+            curve.drag_coefficient,
+            color=INK,
+            lw=1.3,
+            ls=style,
+            gid=f"drag_curve:{name}",
+            label=f"{name} (as given)" if scale != 1.0 else name,
+        )
+        if scale != 1.0:
+            ax.plot(
+                curve.mach,
+                curve.drag_coefficient * scale,
+                color=GREY,
+                lw=1.0,
+                ls=style,
+                gid=f"drag_curve_scaled:{name}",
+                label=f"{name} × {format_number(scale, 3)} (flown)",
+            )
+    if curves:
+        _legend(ax, loc="best")
+    ax.set_xlabel("Mach number")
+    ax.set_ylabel("Drag coefficient")
+    ax.set_xlim(left=0.0)
+    ax.set_ylim(bottom=0.0)
+    ax.set_title(f"drag scale {format_number(scale, 3)}", fontsize=8, color=GREY, loc="left")
+    return figure
 
 
 # --- ledgers -----------------------------------------------------------------------------
@@ -1071,7 +1303,7 @@ def sweep_figure(result: SweepResult, units: DisplayUnits, output: str = "apogee
             _legend(ax, loc="best")
     if result.skipped:
         ax.set_title(
-            f"{len(result.skipped)} grid point(s) skipped: impossible vehicles",
+            f"{plural(len(result.skipped), 'grid point')} skipped: impossible vehicles",
             fontsize=7.5,
             color=GREY,
             loc="left",
@@ -1362,7 +1594,7 @@ def _count_axes(
                 markerfacecolor="none",
                 markeredgecolor=INK,
                 gid="mission_count",
-                label=f"the mission's {stages} stage(s)",
+                label=f"the mission's {plural(stages, 'stage')}",
             )
             _legend(ax, loc="upper right")
     ax.set_xticks(counts)
