@@ -33,6 +33,7 @@ import numpy as np
 from propulsion import thrust_curve as tc
 from propulsion.constants import USSA76_SEA_LEVEL_PRESSURE
 from propulsion.errors import DataFileError, MissionFileNotFoundError, PropulsionError
+from propulsion.text import plural
 from propulsion.units import MAX_MAGNITUDE, UnitParseError, parse_quantity
 from propulsion.vehicle import DragCurve, Motor
 
@@ -477,8 +478,8 @@ def read_table(path: Path) -> Table:
             raise DataFileError(
                 path,
                 "",
-                f"the row has {len(cells)} value(s)",
-                f"{len(header)} value(s), one per column of the header",
+                f"the row has {plural(len(cells), 'value')}",
+                f"{plural(len(header), 'value')}, one per column of the header",
                 number,
             )
         rows.append([cell.strip() for cell in cells])

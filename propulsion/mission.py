@@ -941,7 +941,13 @@ class _Builder:
 
         rows = len(values["altitude"])
         if rows < 2:
-            raise DataFileError(path, "", f"{rows} row(s)", "at least two rows", header)
+            raise DataFileError(
+                path,
+                "",
+                f"{rows} row" if rows == 1 else f"{rows} rows",
+                "at least two rows",
+                header,
+            )
 
         def check(key: str, bad: Any, problem: str, expected: str) -> None:
             found = np.flatnonzero(bad)

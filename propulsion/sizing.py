@@ -26,7 +26,7 @@ from propulsion import ascent, fields, flight, margins
 from propulsion.errors import PropulsionError, RequestError
 from propulsion.ledger import BudgetResult, budget
 from propulsion.mission import Mission, parse_mission
-from propulsion.units import UnitParseError, parse_quantity
+from propulsion.units import UnitParseError, format_plain, parse_quantity
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -251,8 +251,9 @@ def _find_root(
     return (
         False,
         math.nan,
-        f"no value between {low:.6g} and {high:.6g} meets it (margin {f0:+.4g} at the current "
-        f"value, {last['down']:+.4g} at {low:.6g}, {last['up']:+.4g} at {high:.6g})",
+        f"no value between {_number(low, 6)} and {_number(high, 6)} meets it (margin "
+        f"{_signed(f0)} at the current value, {_signed(last['down'])} at {_number(low, 6)}, "
+        f"{_signed(last['up'])} at {_number(high, 6)})",
         count,
     )
 
@@ -342,7 +343,7 @@ def size(
         low_tank, high_tank = fields.LIMITS["tank_fraction"]
         if not low_tank <= tank_fraction <= high_tank:
             raise SizingError(
-                f"a tank fraction of {tank_fraction:.4g} is out of range",
+                f"a tank fraction of {_number(tank_fraction)} is out of range",
                 f"from {low_tank:.0%} to {high_tank:.0%}, as the stage field tank_fraction",
             )
     ref = fields.resolve(mission.document, vary)
@@ -369,7 +370,7 @@ def size(
         bounds = _default_bounds(ref, initial, mission)
     low, high = bounds
     if not (math.isfinite(low) and math.isfinite(high)) or low >= high:
-        raise SizingError(f"the range {low:g}..{high:g} is empty")
+        raise SizingError(f"the range {_number(low, 6)}..{_number(high, 6)} is empty")
     rule = _inert_rule(mission.document, ref, tank_fraction)
 
     def note(text: str) -> None:
@@ -394,7 +395,7 @@ def size(
         count += peak.evaluations
         peaked = budget(problem.mission_at(peak.value))
         message = (
-            f"out of reach: the delta-v margin peaks at {peak.margin:+.4g} m/s at "
+            f"out of reach: the delta-v margin peaks at {_signed(peak.margin)} m/s at "
             f"{_value_text(peak.value, ref)}, inside the range searched, and falls away "
             "on either side"
         )
@@ -461,9 +462,9 @@ def size(
         }[kind]
         unit = {"apogee": "m", "burnout_speed": "m/s", "circular_orbit": "m/s"}[kind]
         message = (
-            f"out of reach: {quantity} peaks at {peak_achieved:,.4g} {unit} at "
+            f"out of reach: {quantity} peaks at {_number(peak_achieved)} {unit} at "
             f"{_value_text(peak.value, ref)}, inside the range searched (margin "
-            f"{peak.margin:+.4g} {unit} there), and falls away on either side"
+            f"{_signed(peak.margin)} {unit} there), and falls away on either side"
         )
     flight_result = None
     if found:
@@ -536,7 +537,19 @@ def _default_bounds(ref: fields.FieldRef, initial: float, mission: Mission) -> t
 
 def _value_text(value: float, ref: fields.FieldRef) -> str:
     unit = ref.si_unit
-    return f"{ref.name} = {value:.4g}{' ' + unit if unit else ''}"
+    return f"{ref.name} = {_number(value)}{' ' + unit if unit else ''}"
+
+
+def _number(value: float, digits: int = 4) -> str:
+    """A number in a message: ``digits`` significant figures, plain decimals (never
+    scientific notation), thousands separators."""
+    return format_plain(value, digits)
+
+
+def _signed(value: float, digits: int = 4) -> str:
+    """:func:`_number` with its sign, ``+`` included (a margin)."""
+    text = _number(value, digits)
+    return f"+{text}" if value > 0 and text != "0" else text
 
 
 def _finite(metric: Callable[[float], float]) -> Callable[[float], float]:

@@ -26,6 +26,7 @@ from propulsion.errors import RequestError
 from propulsion.ledger import budget
 from propulsion.mission import Mission
 from propulsion.staging import StagingSolution, direct_staging, optimal_staging
+from propulsion.text import plural
 from propulsion.vehicle import Engine
 
 if TYPE_CHECKING:
@@ -221,8 +222,8 @@ def split(
     assumptions = [
         "stacks are resized at constant structural coefficient (residual propellant counted "
         "as inert)",
-        f"requirement: the mission's legs and reserves plus its required margin "
-        f"({required:,.0f} m/s)",
+        # the figure itself is in the result (`required_delta_v`), in the display's units
+        "requirement: the mission's legs and reserves plus its required margin",
     ]
     loss_aware = None
     if losses and mission.legs[0].target in ("apogee", "burnout_speed", "circular_orbit"):
@@ -376,7 +377,7 @@ def _loss_aware(
             for j, (i, _) in enumerate(columns):
                 per_total[i] = max(per_total.get(i, -math.inf), float(metric[j]))
             if progress is not None:
-                progress(f"share {share:.3f}: {flights} flights")
+                progress(f"share {share:.3f}: {plural(flights, 'flight')}")
             meeting = [i for i in valid if per_total[i] >= 0]
             if not meeting:
                 low, high = high, high * 1.3
@@ -416,7 +417,8 @@ def _loss_aware(
     mass, dv, stack = liftoff_for(float(result.x))
     found = math.isfinite(mass)
     message = (
-        f"bounded minimisation over the first stage's share ({result.nfev} splits flown)"
+        "bounded minimisation over the first stage's share, "
+        f"{plural(int(result.nfev), 'split')} flown"
         if found
         else "no split in the searched range meets the target"
     )

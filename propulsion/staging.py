@@ -231,7 +231,9 @@ def _idle_note(delta_v: FloatArray) -> str:
     idle = [str(i + 1) for i in np.flatnonzero(delta_v == 0.0)]
     if not idle:
         return ""
-    return f"; stage(s) {', '.join(idle)} carry no delta-v at the optimum (zero mass)"
+    noun = "stage" if len(idle) == 1 else "stages"
+    verb = "carries" if len(idle) == 1 else "carry"
+    return f"; {noun} {', '.join(idle)} {verb} no delta-v at the optimum (zero mass)"
 
 
 # --- Lagrange multiplier solution ------------------------------------------------------------

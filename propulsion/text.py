@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import re
 
-__all__ = ["CONTROL_RE", "printable"]
+__all__ = ["CONTROL_RE", "plural", "printable"]
 
 # C0 controls except tab and line feed, DEL, the C1 controls (ECMA-48, 5th ed., 1991,
 # sections 5.2 and 5.3: 0x00-0x1F, 0x7F and 0x80-0x9F), and the Unicode directional
@@ -45,3 +45,25 @@ def printable(text: str) -> str:
     .. [2] Unicode Standard Annex #9, The Unicode Bidirectional Algorithm, section 2.
     """
     return CONTROL_RE.sub("", text)
+
+
+def plural(count: int, noun: str, many: str | None = None) -> str:
+    """A count with its noun in the right number: ``1 stage``, ``2 stages``, ``1,000 samples``.
+
+    Parameters
+    ----------
+    count : int
+        How many [count]; shown with thousands separators.
+    noun : str
+        The singular noun.
+    many : str, optional
+        The plural when it is not the noun with an ``s`` (``"ellipses"``).
+
+    Returns
+    -------
+    str
+        The count, a space and the noun: singular for exactly one, plural otherwise
+        (zero included: ``0 samples``).
+    """
+    word = noun if count == 1 else (many if many is not None else noun + "s")
+    return f"{count:,} {word}"

@@ -18,14 +18,21 @@ from functools import cache, lru_cache
 from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:
+    from collections.abc import Iterable, Sequence
+
     import pint
 
 __all__ = [
     "DIMENSIONS",
     "DisplayUnits",
     "UnitParseError",
+    "column_decimals",
     "display_units",
+    "format_column",
+    "format_fixed",
+    "format_plain",
     "format_quantity",
+    "orbit_units",
     "parse_quantity",
     "registry",
     "to_display",
@@ -267,6 +274,13 @@ _UNIT_LABELS = {
 }
 
 
+def orbit_units(units: DisplayUnits) -> DisplayUnits:
+    """The same display units with lengths in km (nautical miles in US units): the unit
+    orbit altitudes are read in."""
+    length = "nmi" if units.system == "us" else "km"
+    return DisplayUnits(units.system, {**units.units, "length": length})
+
+
 def display_units(system: str) -> DisplayUnits:
     """Return the display units for ``"si"`` or ``"us"`` (US customary)."""
     key = system.lower()
@@ -311,3 +325,77 @@ def format_number(value: float, digits: int = 4) -> str:
     magnitude = math.floor(math.log10(abs(float(f"{value:.{digits}g}"))))
     decimals = max(0, digits - 1 - magnitude)
     return f"{value:,.{decimals}f}"
+
+
+def column_decimals(values: Iterable[float], digits: int = 4) -> int:
+    """The decimals that give the largest finite magnitude of ``values`` ``digits``
+    significant figures [count]; 0 when there is no finite value other than zero."""
+    largest = max((abs(v) for v in values if math.isfinite(v)), default=0.0)
+    if largest == 0.0:
+        return 0
+    # the decimals follow from the rounded value: 9.9996 shows as 10.00, not 10.000
+    magnitude = math.floor(math.log10(float(f"{largest:.{digits}g}")))
+    return max(0, digits - 1 - magnitude)
+
+
+def format_fixed(value: float, decimals: int, zero: float = 0.0) -> str:
+    """A number with ``decimals`` decimals and thousands separators; within ``zero`` of
+    zero (round-off, in the value's own unit) it shows as ``0``, and a value that rounds
+    to zero never keeps its minus sign. Non-finite values show as ``—`` (or ``∞``)."""
+    if math.isnan(value):
+        return "—"
+    if math.isinf(value):
+        return "∞" if value > 0 else "-∞"
+    if value == 0.0 or abs(value) <= zero:
+        return "0"
+    text = f"{value:,.{decimals}f}"
+    if text.startswith("-") and not text.strip("-0.,"):
+        text = text[1:]  # -0.00 is 0.00
+    return text
+
+
+def format_column(values: Sequence[float], digits: int = 4, zero: float = 0.0) -> list[str]:
+    """The numbers of one table column, all with the same count of decimals.
+
+    Parameters
+    ----------
+    values : sequence of float
+        The column's values, in the unit they are shown in.
+    digits : int
+        Significant figures of the column's largest magnitude [count]; the others get
+        as many decimals as it has, so the decimal points line up.
+    zero : float
+        Values within this of zero are round-off and show as ``0`` [the values' unit].
+
+    Returns
+    -------
+    list of str
+        One text per value: thousands separators, never scientific notation; an exact
+        zero (or round-off) as ``0``, a value too small for the column's decimals as
+        ``0.0`` (so small, not nothing); NaN as ``—``. Decimals that are zero in every
+        value, exactly, are left out: ``10`` read from "10 m/s", not ``10.00`` (a
+        computed 1.0004 keeps its ``1.000``).
+    """
+    finite = [float(v) for v in values if math.isfinite(v) and abs(v) > zero]
+    decimals = column_decimals(finite, digits)
+    while decimals > 0 and all(_exact(v, decimals - 1) for v in finite):
+        decimals -= 1
+    return [format_fixed(float(v), decimals, zero) for v in values]
+
+
+def _exact(value: float, decimals: int) -> bool:
+    """Whether ``value`` is a number of ``decimals`` decimals, to the float's precision."""
+    return abs(value - round(value, decimals)) <= 1e-12 * max(1.0, abs(value))
+
+
+def format_plain(value: float, digits: int = 4, zero: float = 0.0) -> str:
+    """A number in running text: ``digits`` significant figures without the trailing
+    zeros they would add (``30 m/s`` read from "30 m/s", not ``30.00``; ``0.03 kg`` from
+    "30 g", not ``0.03000``), thousands separators, never scientific notation; within
+    ``zero`` of zero it shows as ``0``."""
+    if not math.isfinite(value) or value == 0.0 or abs(value) <= zero:
+        return format_fixed(value, 0, zero)
+    text = format_fixed(value, column_decimals([value], digits))
+    if "." in text:
+        text = text.rstrip("0").rstrip(".")
+    return "0" if text in ("-0", "") else text

@@ -352,7 +352,7 @@ def test_scatter_reserve_on_the_command_line() -> None:
     )
     assert done.exit_code == 0, done.output
     assert "Flight-performance reserve" in done.output
-    assert "95 % interval" in done.output
+    assert "95% interval" in done.output
     bad = runner.invoke(
         app, ["scatter", str(MISSIONS / "two_stage_competition.toml"), "--reserve", "150 %"]
     )
@@ -365,7 +365,8 @@ def test_scatter_reserve_on_the_command_line() -> None:
 def test_ledger_round_off_is_zero_in_every_output() -> None:
     # The finding: a steering loss of -5.4e-15 m/s printed as a result. A term within the
     # integrator's resolution (rtol times the ideal delta-v) of zero is 0 in the tables,
-    # the JSON and the comparison; the closure is shown as a bound.
+    # the JSON and the comparison; so is the closure, and beyond it the closure shows in
+    # plain decimals, never in scientific notation.
     from propulsion.ascent import LossLedger
 
     noisy = LossLedger("x", 400.0, 250.0, 140.0, -5.4e-15, 3e-15, 10.0)
@@ -383,7 +384,18 @@ def test_ledger_round_off_is_zero_in_every_output() -> None:
     steering = next(line for line in shown.splitlines() if "steering loss" in line)
     assert steering.split()[-3:] == ["0", "0", "0"]
     closure = next(line for line in shown.splitlines() if line.lstrip().startswith("closure"))
-    assert "e-0" in closure and "0.0000" not in closure
+    assert "e-0" not in closure
+    from propulsion.report.tables import closure_text
+    from propulsion.units import display_units
+
+    si = display_units("si")
+    for row in result.ledger:
+        shown = closure_text(row.closure, result.resolution, si)
+        assert shown in closure.split()
+        if abs(row.closure) <= result.resolution:
+            assert shown == "0"
+        else:  # one significant figure of the closure itself
+            assert float(shown) == pytest.approx(row.closure, rel=0.5)
 
 
 def test_compare_never_ranks_round_off() -> None:

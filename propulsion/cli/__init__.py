@@ -7,6 +7,7 @@ Exit codes: 0 success, 1 the mission falls short of its targets, 2 bad input.
 from __future__ import annotations
 
 import contextlib
+import inspect
 import os
 import signal
 import sys
@@ -14,6 +15,7 @@ import warnings
 from typing import Any
 
 import typer
+from typer.core import TyperCommand, TyperGroup
 
 from propulsion import __version__
 from propulsion.cli import _threads  # noqa: F401 (sets the thread environment first)
@@ -35,7 +37,75 @@ from propulsion.cli.common import state
 
 __all__ = ["app", "entry", "main"]
 
+
+def plain_help(text: str | None) -> str | None:
+    """A docstring as the help screen shows it: plain text, paragraphs rewrapped.
+
+    typer's rich help keeps a docstring's line breaks inside a paragraph, so a paragraph
+    written over several source lines shows ragged in a terminal of another width. Here
+    each paragraph (separated by a blank line) becomes one line that the terminal wraps;
+    a paragraph that starts with ``\\b`` on a line of its own keeps its line breaks (the
+    click convention for lists and examples). The text is then escaped for rich markup,
+    so a mission file's ``[[dispersion]]`` or ``[margins.flight]`` shows as written.
+    """
+    if text is None:
+        return None
+    from rich.markup import escape
+
+    head, cut, tail = inspect.cleandoc(text).partition("\f")
+    paragraphs = []
+    for paragraph in head.split("\n\n"):
+        if paragraph.startswith("\b\n"):
+            paragraphs.append(paragraph[2:])
+        else:
+            paragraphs.append(" ".join(line.strip() for line in paragraph.splitlines()))
+    return escape("\n\n".join(paragraphs)) + cut + tail
+
+
+def _plain_flags(params: list[Any]) -> None:
+    """Flags take no value: their help shows no type placeholder (typer's ``<bool>``);
+    every help text is plain text (see :func:`plain_help`)."""
+    for param in params:
+        if getattr(param, "is_flag", False) and param.metavar is None:
+            param.metavar = ""
+        if getattr(param, "help", None):
+            param.help = plain_help(param.help)
+
+
+class _Command(TyperCommand):
+    """A command whose help screen is plain text, rewrapped, with no placeholder on flags."""
+
+    def __init__(self, *args: Any, **kwargs: Any) -> None:
+        kwargs["help"] = plain_help(kwargs.get("help"))
+        super().__init__(*args, **kwargs)
+        _plain_flags(self.params)
+
+    def get_help_option(self, ctx: Any) -> Any:
+        """``--help``, a flag like the others."""
+        option = super().get_help_option(ctx)
+        if option is not None and option.metavar is None:
+            option.metavar = ""
+        return option
+
+
+class _Group(TyperGroup):
+    """The main command, with the same plain help as :class:`_Command`."""
+
+    def __init__(self, *args: Any, **kwargs: Any) -> None:
+        kwargs["help"] = plain_help(kwargs.get("help"))
+        super().__init__(*args, **kwargs)
+        _plain_flags(self.params)
+
+    def get_help_option(self, ctx: Any) -> Any:
+        """``--help``, a flag like the others."""
+        option = super().get_help_option(ctx)
+        if option is not None and option.metavar is None:
+            option.metavar = ""
+        return option
+
+
 app = typer.Typer(
+    cls=_Group,
     name="propulsion",
     help=(
         "Delta-v budgets with units, losses and margins for sounding rockets and small "
@@ -66,20 +136,23 @@ def _root(
     state.debug = debug
 
 
-app.command("budget")(_budget.budget_command)
-app.command("fly")(_fly.fly_command)
-app.command("size")(_size.size_command)
-app.command("split")(_split.split_command)
-app.command("pick")(_pick.pick_command)
-app.command("scatter")(_scatter.scatter_command)
-app.command("compare")(_compare.compare_command)
-app.command("report")(_report.report_command)
-app.command("sweep")(_sweep.sweep_command)
-app.command("check")(_check.check_command)
-app.command("data")(_data.data_command)
-app.command("firing")(_firing.firing_command)
-app.command("capacity")(_capacity.capacity_command)
-app.command("worksheet")(_worksheet.worksheet_command)
+for _name, _function in (
+    ("budget", _budget.budget_command),
+    ("fly", _fly.fly_command),
+    ("size", _size.size_command),
+    ("split", _split.split_command),
+    ("pick", _pick.pick_command),
+    ("scatter", _scatter.scatter_command),
+    ("compare", _compare.compare_command),
+    ("report", _report.report_command),
+    ("sweep", _sweep.sweep_command),
+    ("check", _check.check_command),
+    ("data", _data.data_command),
+    ("firing", _firing.firing_command),
+    ("capacity", _capacity.capacity_command),
+    ("worksheet", _worksheet.worksheet_command),
+):
+    app.command(_name, cls=_Command)(_function)
 
 
 def entry() -> None:

@@ -14,6 +14,7 @@ from propulsion.cli.common import (
     UnitSystem,
     emit_json,
     guard,
+    hide_progress,
     stderr,
     stdout,
 )
@@ -21,7 +22,7 @@ from propulsion.cli.common import (
 if TYPE_CHECKING:
     from rich.console import RenderableType
 
-    from propulsion.studies.capacity import CapacityResult
+    from propulsion.studies.capacity import CapacityPoint, CapacityResult
     from propulsion.units import DisplayUnits
 
 
@@ -63,11 +64,17 @@ def capacity_view(result: CapacityResult, units: DisplayUnits) -> RenderableType
     from rich.console import Group
     from rich.text import Text
 
-    from propulsion.report.tables import _table, caution_panel, mission_summary
-    from propulsion.units import to_display
+    from propulsion.report.tables import (
+        ORBIT_UNITS,
+        _column,
+        _table,
+        _with_unit,
+        caution_panel,
+        fit,
+        mission_summary,
+    )
 
-    us = units.system == "us"
-    scale, label = (1852.0, "nmi") if us else (1000.0, "km")
+    scale, label = ORBIT_UNITS.get(units.system, ORBIT_UNITS["si"])
     planes: list[float] = []
     for point in result.points:
         if not any(
@@ -83,29 +90,34 @@ def capacity_view(result: CapacityResult, units: DisplayUnits) -> RenderableType
         table.add_column(f"{head} ({mass})", justify="right")
         table.add_column("Kick", justify="right")
     altitudes = sorted({point.altitude for point in result.points})
-    for altitude in altitudes:
-        cells = [
-            f"{altitude / scale:,.0f}" if altitude / scale >= 100 else f"{altitude / scale:,.1f}"
-        ]
-        for plane in planes:
-            point = next(
-                p
-                for p in result.points
-                if p.altitude == altitude
-                and (p.inclination == plane or (math.isnan(p.inclination) and math.isnan(plane)))
-            )
-            shown = to_display(point.payload, "mass", units)
-            cells.append(f"{shown:,.1f}" if math.isfinite(shown) else "out of reach")
-            cells.append(f"{math.degrees(point.kick):.1f}°" if math.isfinite(shown) else "—")
-        table.add_row(*cells)
+
+    def point_at(altitude: float, plane: float) -> CapacityPoint:
+        return next(
+            p
+            for p in result.points
+            if p.altitude == altitude
+            and (p.inclination == plane or (math.isnan(p.inclination) and math.isnan(plane)))
+        )
+
+    # each column with one count of decimals
+    columns = [_column([a / scale for a in altitudes], None, units)]
+    for plane in planes:
+        points = [point_at(altitude, plane) for altitude in altitudes]
+        payloads = _column([p.payload for p in points], "mass", units)
+        columns.append([text if text != "—" else "out of reach" for text in payloads])
+        columns.append(
+            [f"{math.degrees(p.kick):.1f}°" if math.isfinite(p.payload) else "—" for p in points]
+        )
+    for row in zip(*columns, strict=True):
+        table.add_row(*row)
     note = Text(style="dim")
     note.append(
         "Each point: the first leg moved to that circular orbit, the later legs dropped, the "
-        f"mission's reserve of {result.reserve:,.0f} m/s kept; the payload found by root "
-        "finding on the guided flight, the pitch kick chosen for it when the file leaves it "
-        "open."
+        f"mission's reserve of {_with_unit(result.reserve, 'speed', units)} kept; the payload "
+        "found by root finding on the guided flight, the pitch kick chosen for it when the "
+        "file leaves it open."
     )
-    return Group(mission_summary(result.mission), table, note, Text(), caution_panel())
+    return Group(mission_summary(result.mission), fit(table), note, Text(), caution_panel())
 
 
 def capacity_command(
@@ -128,7 +140,9 @@ def capacity_command(
         show_default=False,
     ),
     plot: Path | None = typer.Option(
-        None, "--plot", help="Draw the curve(s) to this .png or .svg file."
+        None,
+        "--plot",
+        help="Draw the curve (one per inclination) to this .png or .svg file.",
     ),
     force: bool = typer.Option(False, "--force", help="Overwrite the --plot file if it exists."),
     units: UnitSystem = UNITS_OPTION,
@@ -162,7 +176,7 @@ def capacity_command(
             MofNCompleteColumn(),
             console=stderr(),
             transient=True,
-            disable=json_output,
+            disable=hide_progress(json_output),
         ) as bar:
             task = bar.add_task("", total=len(heights) * max(len(planes), 1))
             result = capacity(

@@ -52,6 +52,13 @@ def stderr() -> Console:
     return SafeConsole(stderr=True)
 
 
+def hide_progress(json_output: bool) -> bool:
+    """Whether a progress bar on standard error stays hidden: under ``--json``, and when
+    standard error is not a terminal (a pipe or a file keeps no live display: it would
+    get the bar's last frame, or a blank line ahead of the results)."""
+    return json_output or not stderr().is_terminal
+
+
 @contextmanager
 def guard() -> Iterator[None]:
     """Turn the project's own errors into a one-paragraph message and exit code 2.

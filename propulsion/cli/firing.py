@@ -15,7 +15,7 @@ def firing_command(
         help="Static-fire logs of one motor: CSV, TSV or whitespace-separated, with a header "
         "naming the columns and their units, e.g. 'time (ms),force (kgf)'.",
         show_default=False,
-        metavar="LOG...",
+        metavar="LOG",
     ),
     output: Path | None = typer.Option(
         None,
@@ -54,7 +54,7 @@ def firing_command(
     threshold: str = typer.Option(
         "5 %",
         "--threshold",
-        help="Burn start and end at this fraction of peak thrust (default 5 %: common "
+        help="Burn start and end at this fraction of peak thrust (default 5%: common "
         "practice, no source).",
     ),
     cutoff: str | None = typer.Option(
@@ -63,7 +63,7 @@ def firing_command(
         help="Zero-phase low-pass filter with this cutoff, e.g. '50 Hz' (default: none).",
     ),
     stage: str | None = typer.Option(
-        None, "--stage", help="Stage name for the [\\[dispersion]] tables (default: NAME)."
+        None, "--stage", help="Stage name for the [[dispersion]] tables (default: NAME)."
     ),
     plot: Path | None = typer.Option(
         None,
@@ -80,7 +80,7 @@ def firing_command(
     data/firings/demo_fire_3.txt --propellant-mass '0.42 kg' -o my_motor.csv
 
     Several logs of one motor give the mean and spread of total impulse and burn time,
-    the mean curve, and [\\[dispersion]] tables for a mission file.
+    the mean curve, and [[dispersion]] tables for a mission file.
 
     Exit code 0 when the logs were read (and the motor file written), 2 on bad input.
     """

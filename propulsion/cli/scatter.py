@@ -15,6 +15,7 @@ from propulsion.cli.common import (
     UnitSystem,
     emit_json,
     guard,
+    hide_progress,
     stderr,
     stdout,
 )
@@ -122,7 +123,7 @@ def scatter_command(
             TextColumn("{task.completed:,.0f}/{task.total:,.0f}"),
             TimeRemainingColumn(),
             console=stderr(),
-            disable=json_output,
+            disable=hide_progress(json_output),
             transient=True,
         )
         try:
@@ -170,8 +171,8 @@ def _probability(text: str) -> float:
         ) from None
     if not 0.0 < value < 1.0:
         raise RequestError(
-            f"--reserve {text!r} is not a share of the flights; expected one between 0 % and "
-            "100 %, such as '99.7 %'"
+            f"--reserve {text!r} is not a share of the flights; expected one between 0% and "
+            "100%, such as '99.7 %'"
         )
     return value
 

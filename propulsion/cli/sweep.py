@@ -13,13 +13,16 @@ from propulsion.cli.common import (
     UnitSystem,
     emit_json,
     guard,
+    hide_progress,
     stderr,
     stdout,
 )
+from propulsion.text import plural
 
 if TYPE_CHECKING:
     from rich.console import RenderableType
 
+    from propulsion.fields import FieldRef
     from propulsion.studies.sweep import SweepResult
     from propulsion.units import DisplayUnits
 
@@ -56,9 +59,19 @@ def sweep_view(
         if name in frame.columns and not frame[name].isna().all():
             specs[name] = tuple(COLUMNS[name])  # type: ignore[assignment]
     parts: list[RenderableType] = [mission_summary(result.mission)]
+    legs = result.mission.legs
+    if legs and legs[0].target == "circular_orbit":
+        from propulsion.units import orbit_units
+
+        units = orbit_units(units)  # an orbit's perigee and margin in km (nmi)
     if len(frame):
-        shown = fit_columns(frame, specs, units, width, keep=len(result.axes))
-        title = f"Sweep of {', '.join(a.ref.name for a in result.axes)}: {len(frame)} points"
+        # the verdict column is the last to go when the terminal is narrow
+        shown = fit_columns(
+            frame, specs, units, width, keep=len(result.axes), last=("meets_targets",)
+        )
+        title = (
+            f"Sweep of {', '.join(a.ref.name for a in result.axes)}: {plural(len(frame), 'point')}"
+        )
         if sort:
             title += f", sorted by {sort}"
         parts.append(sheet_view(frame, {name: specs[name] for name in shown}, title, units))
@@ -72,7 +85,7 @@ def sweep_view(
             )
     for point, reason in result.skipped:
         where = ", ".join(
-            f"{axis.ref.name} = {value:g} {'' if axis.ref.is_count else axis.ref.si_unit}".strip()
+            f"{axis.ref.name} = {_point_value(value, axis.ref, units)}"
             for axis, value in zip(result.axes, point, strict=True)
         )
         parts.append(Text(f"Skipped {where}: {reason}", style="yellow"))
@@ -85,6 +98,16 @@ def sweep_view(
     )
     parts.append(caution_panel())
     return Group(*parts)
+
+
+def _point_value(value: float, ref: FieldRef, units: DisplayUnits) -> str:
+    """A swept field's value at a grid point, in display units."""
+    from propulsion.units import format_plain, to_display
+
+    if ref.is_count:
+        return f"{value:,.0f}"
+    shown = to_display(value, ref.dimension, units)
+    return f"{format_plain(shown, 6)} {units.label(ref.dimension)}".strip()
 
 
 def sweep_command(
@@ -152,7 +175,7 @@ def sweep_command(
             MofNCompleteColumn(),
             console=stderr(),
             transient=True,
-            disable=json_output,
+            disable=hide_progress(json_output),
         ) as bar:
             task = bar.add_task("", total=1)
             result = sweep(

@@ -17,7 +17,15 @@ from rich.table import Table
 from rich.text import Text
 
 from propulsion.report.tables import caution_panel
-from propulsion.units import DisplayUnits, format_number, to_display
+from propulsion.text import plural
+from propulsion.units import (
+    DisplayUnits,
+    column_decimals,
+    format_fixed,
+    format_number,
+    format_plain,
+    to_display,
+)
 
 if TYPE_CHECKING:
     from propulsion.firing import Firing, FiringImport
@@ -31,7 +39,7 @@ def _num(value: float, digits: int = 4) -> str:
 
 def _count(number: int, noun: str) -> str:
     """``"1 firing"``, ``"3 firings"``: a count with its noun."""
-    return f"{number:,} {noun}{'s' if number != 1 else ''}"
+    return plural(number, noun)
 
 
 def _q(value: float, dimension: str, units: DisplayUnits, digits: int = 4) -> str:
@@ -41,10 +49,21 @@ def _q(value: float, dimension: str, units: DisplayUnits, digits: int = 4) -> st
 
 
 def _plus_minus(value: float, error: float, dimension: str, units: DisplayUnits) -> str:
-    """``value ± error unit``, the value to five digits, the error to two."""
-    shown = _num(to_display(value, dimension, units), 5)
-    spread = _num(to_display(error, dimension, units), 2)
-    return f"{shown} ± {spread} {units.label(dimension)}".strip()
+    """``value ± error unit``: the error to two significant figures, the value to the same
+    decimals (the error's last digit is the value's); without an error, five figures."""
+    shown_value = to_display(value, dimension, units)
+    shown_error = to_display(error, dimension, units)
+    if not (math.isfinite(shown_error) and shown_error > 0 and math.isfinite(shown_value)):
+        return f"{_num(shown_value, 5)} ± {_num(shown_error, 2)} {units.label(dimension)}".strip()
+    decimals = column_decimals([shown_error], 2)
+    text = f"{format_fixed(shown_value, decimals)} ± {format_fixed(shown_error, decimals)}"
+    return f"{text} {units.label(dimension)}".strip()
+
+
+def _percent(value: float, digits: int = 3) -> str:
+    """A share in percent, ``digits`` significant figures without trailing zeros: ``5%``,
+    ``0.679%``."""
+    return f"{format_plain(100.0 * value, digits)}%"
 
 
 def _table(title: str) -> Table:
@@ -64,7 +83,7 @@ def _table(title: str) -> Table:
 
 def threshold_text(fraction: float) -> str:
     """The burn threshold in words, with the default's status."""
-    text = f"{_num(100.0 * fraction, 3)} % of peak thrust"
+    text = f"{_percent(fraction)} of peak thrust"
     from propulsion.firing import DEFAULT_THRESHOLD
 
     if fraction == DEFAULT_THRESHOLD:
@@ -152,9 +171,9 @@ def _summary_table(
             low, high = spread_interval(std, count)
             table.add_row(
                 title,
-                f"{_plus_minus(mean, std, dimension, units)} ({_num(100 * relative, 3)} %); "
-                f"95 % interval of the standard deviation {_num(100 * low / mean, 2)} to "
-                f"{_num(100 * high / mean, 2)} %",
+                f"{_plus_minus(mean, std, dimension, units)} ({_percent(relative)}); "
+                f"95% interval of the standard deviation {_percent(low / mean, 2)} to "
+                f"{_percent(high / mean, 2)}",
             )
     if result.curve == "mean curve":
         curve = (
@@ -171,7 +190,9 @@ def _summary_table(
     table.add_row("Average thrust", _q(result.average_thrust, "force", units))
     table.add_row("Peak thrust", _q(result.peak_thrust, "force", units))
     if result.propellant_mass is not None and result.specific_impulse is not None:
-        table.add_row("Propellant", _q(result.propellant_mass, "mass", units))
+        # the user's own figure: no trailing zeros it did not have ("0.42 kg")
+        shown = format_plain(to_display(result.propellant_mass, "mass", units))
+        table.add_row("Propellant", f"{shown} {units.label('mass')}")
         table.add_row("Isp", f"{_num(result.specific_impulse)} s")
     else:
         table.add_row("Isp", "— (give --propellant-mass)")

@@ -20,7 +20,7 @@ from rich.table import Table
 from rich.text import Text
 
 from propulsion.report.export_tables import column_dimension, unit_dimension
-from propulsion.units import DisplayUnits, format_number, to_display
+from propulsion.units import DisplayUnits, format_column, to_display
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -45,6 +45,12 @@ ColumnSpec = tuple[str, str | None, str | None]
 TIE_TOLERANCE = 1e-9
 """Values within this fraction of the column's largest magnitude tie for best (round-off
 such as a steering loss of 1e-15 m/s against -7e-15 m/s is not a winner)."""
+
+
+ALIGNED_SPAN = 1000.0
+"""A column whose largest magnitude is within this factor of its smallest (nonzero) one
+shows every value with the same decimals; beyond it each value keeps its own significant
+figures."""
 
 
 def _missing(value: Any) -> bool:
@@ -89,12 +95,47 @@ def best_rows(values: Sequence[Any], better: str | None) -> set[int]:
     return set() if len(winners) == len(finite) else winners
 
 
-def _number(value: float, digits: int) -> str:
-    if math.isnan(value):
-        return "—"
-    if math.isinf(value):
-        return "∞" if value > 0 else "-∞"
-    return format_number(value, digits)
+def _numbers(
+    values: Sequence[Any], dims: Sequence[str | None], units: DisplayUnits, digits: int
+) -> dict[int, str]:
+    """The texts of a column's numbers, by row: in display units, and with the same
+    decimals for every row of one unit (``digits`` significant figures for the largest);
+    integers of a dimensionless column as whole numbers. A column whose values span more
+    than :data:`ALIGNED_SPAN` (a hobby rocket's 1.5 kg beside a launcher's 22,440 kg)
+    gives each value its own ``digits`` significant figures instead: one count of decimals
+    would show the small ones as ``2``."""
+    texts: dict[int, str] = {}
+    groups: dict[str | None, list[int]] = {}
+    for index, (value, dim) in enumerate(zip(values, dims, strict=True)):
+        if _missing(value):
+            continue
+        integral = isinstance(value, int | np.integer) and not isinstance(value, bool)
+        if integral and dim is None:
+            texts[index] = f"{int(value):,}"
+        else:
+            groups.setdefault(dim, []).append(index)
+    for dim, rows in groups.items():
+        shown = [
+            to_display(float(values[i]), dim, units) if dim else float(values[i]) for i in rows
+        ]
+        sizes = [abs(v) for v in shown if math.isfinite(v) and v != 0.0]
+        if sizes and max(sizes) > ALIGNED_SPAN * min(sizes):
+            column = [format_column([v], digits)[0] for v in shown]
+        else:
+            column = format_column(shown, digits)
+        texts.update(zip(rows, column, strict=True))
+    return texts
+
+
+def _visible(winners: set[int], texts: Mapping[int, str]) -> set[int]:
+    """The best rows a reader can tell apart: those that show the best value as printed.
+    When every row shows it (the differences are below the printed digits: round-off),
+    none is marked."""
+    if not winners:
+        return set()
+    shown = {texts[i] for i in winners if i in texts}
+    marked = {i for i, text in texts.items() if text in shown}
+    return set() if len(marked) == len(texts) else marked
 
 
 def _specs(
@@ -123,7 +164,7 @@ def _legend(specs: Mapping[str, ColumnSpec], marked: set[str]) -> str:
     if high:
         parts.append("highest " + ", ".join(high))
     text = f"{BEST_MARK} best in its column ({'; '.join(parts)})." if parts else ""
-    return (text + " — : does not apply.").strip()
+    return (text + " —: does not apply.").strip()
 
 
 def _build(
@@ -152,6 +193,7 @@ def _build(
         header = heading
         if dimension is not None and units.label(dimension):
             header = f"{heading}\n({units.label(dimension)})"
+        texts = _numbers(values, row_dims, units, digits) if numbers else {}
         winners: set[int] = set()
         if best and numbers:
             same_unit = len({d for d, v in zip(row_dims, values, strict=True) if not _missing(v)})
@@ -160,6 +202,7 @@ def _build(
             kind_column = f"{name}_target"
             same_kind = kind_column not in frame.columns or len(set(frame[kind_column])) <= 1
             winners = best_rows(values, better) if same_unit <= 1 and same_kind else set()
+            winners = _visible(winners, texts)
         if winners:
             marked.add(name)
         column: list[Text] = []
@@ -169,9 +212,7 @@ def _build(
             elif flags:
                 column.append(Text("yes", style="green") if value else Text("no", style="red"))
             elif numbers:
-                shown = to_display(float(value), dim, units) if dim else float(value)
-                integral = isinstance(value, int | np.integer) and not isinstance(value, bool)
-                text = f"{int(value):,}" if integral and dim is None else _number(shown, digits)
+                text = texts[index]
                 # the unit varies per row: show it, on the number's line
                 label = units.label(dim) if dim is not None and dimension is None else ""
                 whole = bool(label)
@@ -296,7 +337,10 @@ def _column_sizes(table: Table) -> tuple[list[tuple[int, int]], int]:
     sizes = []
     for column in table.columns:
         measured = [_words(column.header), *(_words(cell) for cell in column.cells)]
-        sizes.append((max(m[0] for m in measured), max(m[1] for m in measured)))
+        low, high = max(m[0] for m in measured), max(m[1] for m in measured)
+        if column.no_wrap:  # its cells stay on one line: as wide as the widest
+            low = high
+        sizes.append((low, high))
     # measured unconstrained: rich clamps a measurement to the console's width
     wide = Console(width=100_000, file=io.StringIO())
     natural = Measurement.get(wide, wide.options, table).maximum
@@ -337,6 +381,7 @@ def fit_columns(
     units: DisplayUnits,
     width: int,
     keep: int = 1,
+    last: Sequence[str] = (),
 ) -> list[str]:
     """The most important columns whose table fits a terminal width.
 
@@ -352,12 +397,16 @@ def fit_columns(
         Terminal width [characters].
     keep : int
         The first ``keep`` columns are kept whatever the width [count].
+    last : sequence of str
+        Columns dropped only when every other one (but the first ``keep``) is gone: a
+        verdict column, which a reader looks for first.
 
     Returns
     -------
     list of str
-        A prefix of ``columns`` (at least ``keep`` long) whose table, with headers wrapped
-        and numbers whole, is at most ``width`` wide.
+        The columns in their order (at least the first ``keep``) whose table, with headers
+        wrapped and numbers whole, is at most ``width`` wide: the least important dropped
+        first, from the end, those in ``last`` after all the others.
 
     References
     ----------
@@ -365,8 +414,10 @@ def fit_columns(
        width of a renderable).
     """
     names = list(columns)
-    while len(names) > keep and _minimum_width(frame, columns, names, units) > width:
-        names.pop()
+    order = [name for name in names[keep:] if name not in last]
+    order = [name for name in names[keep:] if name in last] + order  # dropped from the end
+    while order and _minimum_width(frame, columns, names, units) > width:
+        names.remove(order.pop())
     return names
 
 

@@ -6,7 +6,7 @@ Values arrive in SI and are converted to the chosen display units here.
 from __future__ import annotations
 
 import math
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Sequence
 from typing import TYPE_CHECKING, Any
 
 from rich import box
@@ -15,8 +15,18 @@ from rich.panel import Panel
 from rich.table import Table
 from rich.text import Text
 
+from propulsion.atmosphere import TOP_ALTITUDE
 from propulsion.report.cautions import SAFETY_CAUTION, SAFETY_TITLE
-from propulsion.units import DisplayUnits, format_number, to_display
+from propulsion.text import plural
+from propulsion.units import (
+    DisplayUnits,
+    column_decimals,
+    format_column,
+    format_fixed,
+    format_number,
+    format_plain,
+    to_display,
+)
 
 if TYPE_CHECKING:
     from propulsion.ascent import FlightResult
@@ -59,6 +69,80 @@ def _num(value: float, digits: int = 4) -> str:
 
 def _q(value: float, dimension: str, units: DisplayUnits, digits: int = 4) -> str:
     return _num(to_display(value, dimension, units), digits)
+
+
+def _plain(value: float, dimension: str | None, units: DisplayUnits, digits: int = 4) -> str:
+    """A quantity in running text, in display units, without its unit: ``digits``
+    significant figures without trailing zeros (``30 m/s`` from "30 m/s")."""
+    shown = value if dimension is None else to_display(value, dimension, units)
+    return format_plain(shown, digits)
+
+
+def _with_unit(value: float, dimension: str, units: DisplayUnits, digits: int = 4) -> str:
+    """A quantity in running text with its display unit: ``1,114 m``, ``0.15 kg``."""
+    return f"{_plain(value, dimension, units, digits)} {units.label(dimension)}".strip()
+
+
+def _column(
+    values: Iterable[float],
+    dimension: str | None,
+    units: DisplayUnits,
+    digits: int = 4,
+    zero: float = 0.0,
+) -> list[str]:
+    """SI values of one quantity (a table column, or a row of a sheet) in display units,
+    all with the decimals that give the largest ``digits`` significant figures; within
+    ``zero`` [SI] of zero shown as 0."""
+    values = [float(v) for v in values]
+    if dimension is None:
+        return format_column(values, digits, zero)
+    shown = [to_display(v, dimension, units) for v in values]
+    return format_column(shown, digits, abs(to_display(zero, dimension, units)))
+
+
+ORBIT_UNITS = {"si": (1000.0, "km"), "us": (1852.0, "nmi")}
+"""Orbit altitudes are shown in km (nautical miles in US units): (metres per unit, label)."""
+
+
+def orbit_length(value: float, units: DisplayUnits) -> str:
+    """An orbit's altitude (or a length along it) in km or nautical miles, to the metre
+    (three decimals of km; of a nautical mile, 1.852 m), with its unit."""
+    scale, label = ORBIT_UNITS.get(units.system, ORBIT_UNITS["si"])
+    return f"{format_fixed(value / scale, 3)} {label}"
+
+
+TARGET_NAMES = {
+    "delta_v": "delta-v",
+    "apogee": "apogee",
+    "burnout_speed": "burnout-speed",
+    "circular_orbit": "circular-orbit",
+    "transfer_burn": "transfer-burn",
+}
+"""A leg target kind (:data:`propulsion.targets.TARGET_KINDS`) as words: "the
+circular-orbit target"."""
+
+
+def target_name(kind: str) -> str:
+    """A leg target kind in words (``circular_orbit`` → ``circular-orbit``)."""
+    return TARGET_NAMES.get(kind, kind.replace("_", " "))
+
+
+def family_name(key: str | None) -> str:
+    """A propellant family's short readable name: its name in data/propellants.csv up to
+    the first parenthesis ("Potassium nitrate / sucrose"); "—" for none, and the key with
+    spaces for a family the table does not list."""
+    if not key:
+        return "—"
+    from propulsion.catalog import propellant_families
+    from propulsion.errors import PropulsionError
+
+    try:
+        family = propellant_families().get(key)
+    except (PropulsionError, OSError):  # a name is not worth failing a screen for
+        family = None
+    if family is None or not family.name:
+        return key.replace("_", " ")
+    return family.name.split(" (")[0].strip()
 
 
 def _head(title: str, dimension: str, units: DisplayUnits) -> str:
@@ -142,15 +226,16 @@ def _sheet(
     names: Sequence[str],
     rows: Sequence[tuple[str, str, Sequence[str]]],
     emphasise: Iterable[str] = (),
-) -> Table:
-    """A table with one column per item (stage, leg) and one row per quantity."""
+) -> RenderableType:
+    """A table with one column per item (stage, leg) and one row per quantity, fitted to
+    the terminal without breaking a word (see :func:`fit`)."""
     shown = _elide(len(names))
     hidden = len(names) - sum(1 for i in shown if i is not None)
     if hidden:
         title += f" ({len(names):,} items; {hidden:,} not shown, --json lists all)"
     table = _table(title)
     table.add_column("")
-    table.add_column("Unit", style="dim")
+    table.add_column("Unit", style="dim", no_wrap=True)
     for i in shown:
         if i is None:
             table.add_column(f"… {hidden:,} more", justify="center", style="dim")
@@ -160,7 +245,16 @@ def _sheet(
     for label, unit, values in rows:
         cells = ["…" if i is None else values[i] for i in shown]
         table.add_row(label, unit, *cells, style="bold" if label in bold else None)
-    return table
+    return fit(table)
+
+
+def fit(table: Table) -> RenderableType:
+    """The table narrowed to the terminal's width the way a reader wants: every column
+    keeps at least its longest word (a number or a name is never broken or cut), the
+    rest of the room shared out (:class:`propulsion.report.sheet._Fitted`)."""
+    from propulsion.report.sheet import _Fitted
+
+    return _Fitted(table)
 
 
 def _first_lines(lines: Sequence[str], most: int = 12) -> str:
@@ -188,14 +282,12 @@ def budget_view(result: BudgetResult, units: DisplayUnits) -> RenderableType:
     mass, speed = units.label("mass"), units.label("speed")
 
     def col(getter: object, dimension: str | None = None, digits: int = 4) -> list[str]:
-        values = [getattr(row, str(getter)) for row in st]
-        if dimension is None:
-            return [_num(value, digits) for value in values]
-        return [_q(value, dimension, units, digits) for value in values]
+        # one quantity of every stage: the same decimals along the row
+        return _column([getattr(row, str(getter)) for row in st], dimension, units, digits)
 
     stage_rows: list[tuple[str, str, Sequence[str]]] = [
         ("Propulsion", "", [row.propulsion for row in st]),
-        ("Propellant family", "", [row.propellant_family or "—" for row in st]),
+        ("Propellant family", "", [family_name(row.propellant_family) for row in st]),
         ("Initial mass", mass, col("initial_mass", "mass")),
         ("Final mass", mass, col("final_mass", "mass")),
         ("Usable propellant", mass, col("usable_propellant", "mass")),
@@ -223,7 +315,7 @@ def budget_view(result: BudgetResult, units: DisplayUnits) -> RenderableType:
     )
     parts.append(
         Text(
-            f"Stack ideal Δv: {_q(result.total_ideal_delta_v, 'speed', units)} {speed}",
+            f"Stack ideal Δv: {_with_unit(result.total_ideal_delta_v, 'speed', units)}",
             style="bold",
         )
     )
@@ -232,10 +324,10 @@ def budget_view(result: BudgetResult, units: DisplayUnits) -> RenderableType:
         legs = result.legs
 
         def leg_col(getter: str, dimension: str) -> list[str]:
-            return [_q(getattr(leg, getter), dimension, units) for leg in legs]
+            return _column([getattr(leg, getter) for leg in legs], dimension, units)
 
         leg_rows: list[tuple[str, str, Sequence[str]]] = [
-            ("Target", "", [leg.target for leg in legs]),
+            ("Target", "", [target_name(leg.target) for leg in legs]),
             ("Stages", "", [", ".join(leg.stages) for leg in legs]),
             ("Required Δv", speed, leg_col("required_delta_v", "speed")),
             ("Reserve", speed, leg_col("reserve", "speed")),
@@ -265,7 +357,7 @@ def budget_view(result: BudgetResult, units: DisplayUnits) -> RenderableType:
         lines = []
         for leg, mission_leg in zip(legs, result.mission.legs, strict=True):
             terms = " ".join(
-                f"{'+' if value >= 0 else '−'} {_q(abs(value), 'speed', units)} {speed} ({label})"
+                f"{'+' if value >= 0 else '−'} {_with_unit(abs(value), 'speed', units)} ({label})"
                 for label, value in mission_leg.requirement.terms
             ).lstrip("+ ")
             lines.append(f"{leg.name}: required = {terms}\n")
@@ -276,9 +368,10 @@ def budget_view(result: BudgetResult, units: DisplayUnits) -> RenderableType:
             f"{stage.name} {stage.residual_fraction:.1%}" for stage in stages[:SHEET_COLUMNS]
         ) + (f" and {len(stages) - SHEET_COLUMNS:,} more" if len(stages) > SHEET_COLUMNS else "")
         notes.append(
-            f"Mission reserve {_q(margins.reserve, 'speed', units)} {speed}; Δv of the "
-            f"propellant left after the last leg {_q(result.leftover_delta_v, 'speed', units)} "
-            f"{speed}; unusable residual propellant: {residuals}.\n"
+            f"Mission reserve {_with_unit(margins.reserve, 'speed', units)}; Δv of the "
+            "propellant left after the last leg "
+            f"{_with_unit(result.leftover_delta_v, 'speed', units)}; unusable residual "
+            f"propellant: {residuals}.\n"
             "Ideal Δv: Tsiolkovsky rocket equation with g0 = 9.80665 m/s² (vacuum Isp for "
             "engines, delivered Isp for motors). Losses are in the loss allowances; "
             "`propulsion fly` computes them."
@@ -306,9 +399,10 @@ def check_view(result: BudgetResult, units: DisplayUnits) -> RenderableType:
     header.append("Valid mission file: ", style="bold green")
     header.append(mission.source)
     header.append(
-        f"\n{mission.name}: {len(vehicle.stages)} stage(s), {len(mission.legs)} leg(s), "
-        f"liftoff mass {_q(vehicle.liftoff_mass, 'mass', units)} {units.label('mass')}, "
-        f"payload {_q(vehicle.payload_mass, 'mass', units)} {units.label('mass')}"
+        f"\n{mission.name}: {plural(len(vehicle.stages), 'stage')}, "
+        f"{plural(len(mission.legs), 'leg')}, liftoff mass "
+        f"{_with_unit(vehicle.liftoff_mass, 'mass', units)}, payload "
+        f"{_with_unit(vehicle.payload_mass, 'mass', units)}"
     )
     table = _table("Vehicle")
     table.add_column("Stage")
@@ -318,17 +412,16 @@ def check_view(result: BudgetResult, units: DisplayUnits) -> RenderableType:
     table.add_column(_head("Propellant", "mass", units), justify="right")
     table.add_column("Isp (s)", justify="right")
     table.add_column("T/W at ignition", justify="right")
-    for row in result.stages:
-        table.add_row(
-            row.name,
-            row.propulsion,
-            row.propellant_family or "—",
-            _q(row.inert_mass, "mass", units),
-            _q(row.propellant_mass, "mass", units),
-            _num(row.isp),
-            _num(row.thrust_to_weight, 3),
-        )
-    return Group(header, table, findings_view(result.findings), caution_panel())
+    stages = result.stages
+    columns = (
+        _column([row.inert_mass for row in stages], "mass", units),
+        _column([row.propellant_mass for row in stages], "mass", units),
+        _column([row.isp for row in stages], None, units),
+        _column([row.thrust_to_weight for row in stages], None, units, 3),
+    )
+    for row, *numbers in zip(stages, *columns, strict=True):
+        table.add_row(row.name, row.propulsion, family_name(row.propellant_family), *numbers)
+    return Group(header, fit(table), findings_view(result.findings), caution_panel())
 
 
 def data_view(
@@ -346,18 +439,22 @@ def data_view(
     """
     own = {i: file for i, file in enumerate(files) if file is not None}
     fam = _table("Propellant families (data/propellants.csv)")
+    # the key is what a mission file names; headers wrap between their words
     fam.add_column("Key", no_wrap=True)
-    fam.add_column("Isp (s)", no_wrap=True)
+    fam.add_column("Isp (s)")
     fam.add_column(_head("Density", "density", units), justify="right")
-    fam.add_column("Stage fraction", no_wrap=True)
+    fam.add_column("Stage fraction")
     fam.add_column("Min T/W", justify="right")
-    for f in families.values():
+    rows = list(families.values())
+    density = _column([f.density for f in rows], "density", units)
+    least = _column([f.liftoff_thrust_to_weight_min for f in rows], None, units, 2)
+    for f, shown_density, shown_least in zip(rows, density, least, strict=True):
         fam.add_row(
             f.key,
             f"{f.isp_min:.0f}–{f.isp_max:.0f}",
-            _q(f.density, "density", units),
+            shown_density,
             f"{f.stage_mass_fraction_min:.2f}–{f.stage_mass_fraction_max:.2f}",
-            f"{f.liftoff_thrust_to_weight_min:g}",
+            shown_least,
         )
     fam.caption = "Full names and sources: `propulsion data --json` or data/propellants.csv."
     title = "Demo motors (data/motors/, invented for the examples)"
@@ -373,16 +470,19 @@ def data_view(
     mot.add_column(_head("Propellant", "mass", units), justify="right")
     mot.add_column(_head("Loaded", "mass", units), justify="right")
     mot.add_column("Diameter (mm)", justify="right")
-    for i, m in enumerate(motors):
+    columns = (
+        _column([m.total_impulse for m in motors], "impulse", units),
+        _column([m.average_thrust for m in motors], "force", units),
+        _column([m.burn_time for m in motors], None, units, 3),
+        _column([m.specific_impulse for m in motors], None, units, 3),
+        _column([m.propellant_mass for m in motors], "mass", units, 3),
+        _column([m.loaded_mass for m in motors], "mass", units, 3),
+    )
+    for i, (m, *numbers) in enumerate(zip(motors, *columns, strict=True)):
         mot.add_row(
             f"{m.name}*" if i in own else m.name,
             m.impulse_class,
-            _q(m.total_impulse, "impulse", units),
-            _q(m.average_thrust, "force", units),
-            _num(m.burn_time, 3),
-            _num(m.specific_impulse, 3),
-            _q(m.propellant_mass, "mass", units, 2),
-            _q(m.loaded_mass, "mass", units, 2),
+            *numbers,
             f"{m.diameter * 1000:.0f}" if m.diameter else "—",
         )
     drag = _table("Drag curves (data/drag/, rough defaults)")
@@ -396,11 +496,11 @@ def data_view(
             f"{c.drag_coefficient.min():.2f}–{c.drag_coefficient.max():.2f}",
         )
     if not own:
-        return Group(fam, mot, drag)
+        return Group(fit(fam), fit(mot), fit(drag))
     listed = Text("* Your motors:", style="dim")
     for i, file in own.items():
         listed.append(f"\n  {motors[i].name} = {file}", style="dim")
-    return Group(fam, mot, listed, Text(), drag)
+    return Group(fit(fam), fit(mot), listed, Text(), fit(drag))
 
 
 def sparkline(values: Sequence[float], rows: int = 1) -> list[str]:
@@ -483,7 +583,7 @@ def flight_view(
     events (`fly` leaves it out when it draws the flight to a picture with --plot).
     """
     parts: list[RenderableType] = [mission_summary(result.mission)]
-    length, speed = units.label("length"), units.label("speed")
+    speed = units.label("speed")
     events = _table("Events")
     events.add_column("Event", no_wrap=True)
     events.add_column("Time (s)", justify="right")
@@ -492,17 +592,34 @@ def flight_view(
     events.add_column("Mach", justify="right")
     events.add_column("Accel. (g)", justify="right")
     events.add_column(_head("Dyn. pressure", "pressure", units), justify="right")
-    for event in result.events:
-        events.add_row(
-            event.name,
-            _num(event.time, 4),
-            _q(event.altitude, "length", units),
-            _q(event.speed, "speed", units),
-            _num(event.mach, 3),
-            _num(event.acceleration / 9.80665, 3),
-            _q(event.dynamic_pressure, "pressure", units, 3),
-        )
-    parts.append(events)
+    rows_of_events = list(result.events)
+    top = TOP_ALTITUDE - result.mission.launch.altitude  # above the site [m]
+    # the integrator holds a state to about rtol of its scale: less is round-off, 0
+    # (a liftoff 9e-7 m above the pad is on the pad)
+    altitude_zero = result.rtol * max((abs(e.altitude) for e in rows_of_events), default=0.0)
+    times = [e.time for e in rows_of_events]
+    # times to the millisecond at least: a liftoff 0.65 ms after ignition shows as 0.001 s
+    time_decimals = max(column_decimals(times, 4), 3)
+    columns = (
+        [format_fixed(t, time_decimals) for t in times],
+        _column([e.altitude for e in rows_of_events], "length", units, zero=altitude_zero),
+        _column([e.speed for e in rows_of_events], "speed", units, zero=result.resolution),
+        # no Mach number where there is no air (above the 1976 standard's top, 86 km)
+        _column(
+            [
+                e.mach if e.dynamic_pressure > 0.0 or e.altitude < top else math.nan
+                for e in rows_of_events
+            ],
+            None,
+            units,
+            3,
+        ),
+        _column([e.acceleration / 9.80665 for e in rows_of_events], None, units, 3),
+        _column([e.dynamic_pressure for e in rows_of_events], "pressure", units, 3),
+    )
+    for event, *numbers in zip(rows_of_events, *columns, strict=True):
+        events.add_row(event.name, *numbers)
+    parts.append(fit(events))
     if altitude_sparkline:
         spark = _altitude_sparkline(result, units)
         if spark is not None:
@@ -513,7 +630,8 @@ def flight_view(
     resolution = result.resolution
 
     def line(label: str, attribute: str) -> tuple[str, str, list[str]]:
-        return label, speed, [_q(getattr(row, attribute), "speed", units) for row in rows]
+        values = [getattr(row, attribute) for row in rows]
+        return label, speed, _column(values, "speed", units, zero=resolution)
 
     total = rows[-1]
     sheet: list[tuple[str, str, Sequence[str]]] = [line("Ideal Δv (∫ F_vac / m dt)", "ideal")]
@@ -546,34 +664,37 @@ def flight_view(
     summary = Text()
     if math.isfinite(result.apogee):
         summary.append(
-            f"Apogee {_q(result.apogee, 'length', units)} {length} above the site at "
-            f"{_num(result.apogee_time, 4)} s. "
+            f"Apogee {_with_unit(result.apogee, 'length', units)} above the site at "
+            f"{format_plain(result.apogee_time)} s. "
         )
     if math.isfinite(result.rail_exit_speed):
-        summary.append(f"Rail exit at {_q(result.rail_exit_speed, 'speed', units)} {speed}. ")
+        summary.append(f"Rail exit at {_with_unit(result.rail_exit_speed, 'speed', units)}. ")
     summary.append(
-        f"Max dynamic pressure {_q(result.max_dynamic_pressure, 'pressure', units)} "
-        f"{units.label('pressure')}, max Mach {_num(result.max_mach, 3)}, max acceleration "
-        f"{_num(result.max_acceleration / 9.80665, 3)} g."
+        f"Max dynamic pressure {_with_unit(result.max_dynamic_pressure, 'pressure', units)}, "
+        f"max Mach {_plain(result.max_mach, None, units, 3)}, max acceleration "
+        f"{_plain(result.max_acceleration / 9.80665, None, units, 3)} g."
     )
     if result.orbit is not None:
         orbit = result.orbit
         summary.append(
-            f"\nOsculating orbit at the end: perigee {_q(orbit.perigee_altitude, 'length', units)} "
-            f"{length}, apogee {_q(orbit.apogee_altitude, 'length', units)} {length}, "
-            f"eccentricity {_num(orbit.eccentricity, 3)}."
+            f"\nOsculating orbit at the end: perigee {orbit_length(orbit.perigee_altitude, units)}"
+            f", apogee {orbit_length(orbit.apogee_altitude, units)}, eccentricity "
+            f"{format_fixed(orbit.eccentricity, 4)}."
         )
     summary.append(
-        f"\nIntegrated in {_num(result.compute_time * 1000, 2)} ms (compiled Dormand–Prince 5(4), "
-        f"{int(result.outcome.steps[0])} steps); ending: {result.status}.",
+        f"\nIntegrated in {format_plain(result.compute_time * 1000, 2)} ms (compiled "
+        f"Dormand–Prince 5(4), {plural(int(result.outcome.steps[0]), 'step')}); ending: "
+        f"{result.status}.",
         style="dim",
     )
     parts.append(summary)
     parts.append(Text())
+    orbit_verdict = result.verdict.target == "circular_orbit"
 
     def fmt(value: float, dimension: str) -> str:
-        shown = to_display(value, dimension, units)
-        return f"{_num(shown, 4)} {units.label(dimension)}".strip()
+        if orbit_verdict and dimension == "length":
+            return orbit_length(value, units)  # an orbit's figures in km (nmi)
+        return _with_unit(value, dimension, units)
 
     if result.guidance is not None:
         parts.append(guidance_view(result, units))
@@ -603,16 +724,15 @@ FAIL_MARKS = {
 
 
 def closure_text(value: float, resolution: float, units: DisplayUnits) -> str:
-    """A figure that is integration error: within ``resolution`` shown as a bound, "<1e-4"
-    (the power of ten above the resolution, in display units), else to one significant
-    figure."""
+    """A figure that is integration error, in display units: within ``resolution`` it is
+    round-off and shows as 0, else to one significant figure in plain decimals
+    (``-0.00003``), never in scientific notation."""
     if not math.isfinite(value):
         return "—"
-    shown = abs(to_display(value, "speed", units))
-    limit = abs(to_display(resolution, "speed", units))
-    if shown <= limit:
-        return f"< {10.0 ** math.ceil(math.log10(limit)):.0e}"
-    return f"{to_display(value, 'speed', units):.0e}"
+    shown = to_display(value, "speed", units)
+    if abs(value) <= resolution:
+        return "0"
+    return format_fixed(shown, max(0, -math.floor(math.log10(abs(float(f"{shown:.0e}"))))))
 
 
 IMPACT_CAUTION = (
@@ -630,16 +750,17 @@ def impacts_view(result: FlightResult, units: DisplayUnits) -> RenderableType:
     table.add_column(_head("From pad", "length", units), justify="right")
     table.add_column("Time (s)", justify="right")
     table.add_column(_head("Speed", "speed", units), justify="right")
-    for impact in result.impacts:
-        table.add_row(
-            impact.body,
-            _q(impact.east, "length", units),
-            _q(impact.north, "length", units),
-            _q(impact.distance, "length", units),
-            _num(impact.time, 4),
-            _q(impact.speed, "speed", units),
-        )
-    return Group(table, Text(IMPACT_CAUTION, style="yellow"), Text())
+    impacts = result.impacts
+    columns = (
+        _column([i.east for i in impacts], "length", units),
+        _column([i.north for i in impacts], "length", units),
+        _column([i.distance for i in impacts], "length", units),
+        _column([i.time for i in impacts], None, units),
+        _column([i.speed for i in impacts], "speed", units),
+    )
+    for impact, *numbers in zip(impacts, *columns, strict=True):
+        table.add_row(impact.body, *numbers)
+    return Group(fit(table), Text(IMPACT_CAUTION, style="yellow"), Text())
 
 
 def guidance_view(result: FlightResult, units: DisplayUnits) -> RenderableType:
@@ -648,7 +769,7 @@ def guidance_view(result: FlightResult, units: DisplayUnits) -> RenderableType:
     guided = result.guidance
     assert guided is not None
     # orbits in km (nautical miles in US units)
-    scale, length = (1852.0, "nmi") if units.system == "us" else (1000.0, "km")
+    scale, length = ORBIT_UNITS.get(units.system, ORBIT_UNITS["si"])
     table = _table("Guided ascent to the target orbit")
     table.add_column("", no_wrap=True)
     table.add_column("Target", justify="right")
@@ -685,15 +806,12 @@ def guidance_view(result: FlightResult, units: DisplayUnits) -> RenderableType:
     lines.append(
         f"Upper stage steered by tan(pitch) = {guided.guide_a:.4f} "
         f"{'-' if guided.guide_b < 0 else '+'} {abs(guided.guide_b):.4f} τ "
-        f"(τ: burn time fraction), solved by shooting in {guided.iterations} iterations"
+        f"(τ: burn time fraction), solved by shooting in {plural(guided.iterations, 'iteration')}"
         + ("" if guided.converged else ", NOT converged")
         + ". "
     )
-    lines.append(
-        f"Propellant left at cutoff: {_q(guided.propellant_left, 'mass', units)} "
-        f"{units.label('mass')}."
-    )
-    return Group(table, lines, Text())
+    lines.append(f"Propellant left at cutoff: {_with_unit(guided.propellant_left, 'mass', units)}.")
+    return Group(fit(table), lines, Text())
 
 
 def footprint_view(result: ScatterResult, units: DisplayUnits) -> RenderableType:
@@ -709,7 +827,16 @@ def footprint_view(result: ScatterResult, units: DisplayUnits) -> RenderableType
     table.add_column("3σ ellipse", justify="right", no_wrap=True)
     table.add_column("Bearing", justify="right")
     table.add_column("Farthest", justify="right", min_width=8)
-    for item in result.footprints:
+    items = result.footprints
+    nan = math.nan
+
+    def numbers(pick: Callable[[Any], float]) -> list[str]:
+        return _column([pick(i) if i.ellipses else nan for i in items], "length", units)
+
+    east = numbers(lambda i: i.mean[0])
+    north = numbers(lambda i: i.mean[1])
+    farthest = numbers(lambda i: i.farthest)
+    for index, item in enumerate(items):
         if not item.ellipses:
             table.add_row(item.body, "0", "—", "—", "—", "—", "—", "—")
             continue
@@ -717,20 +844,21 @@ def footprint_view(result: ScatterResult, units: DisplayUnits) -> RenderableType
         table.add_row(
             item.body,
             f"{item.count:,}",
-            _q(item.mean[0], "length", units),
-            _q(item.mean[1], "length", units),
-            f"{_q(one.major, 'length', units, 3)} × {_q(one.minor, 'length', units, 3)}",
-            f"{_q(three.major, 'length', units, 3)} × {_q(three.minor, 'length', units, 3)}",
+            east[index],
+            north[index],
+            f"{_plain(one.major, 'length', units, 3)} × {_plain(one.minor, 'length', units, 3)}",
+            f"{_plain(three.major, 'length', units, 3)} × "
+            f"{_plain(three.minor, 'length', units, 3)}",
             f"{math.degrees(one.bearing):.0f}°",
-            _q(item.farthest, "length", units),
+            farthest[index],
         )
     note = Text(style="dim")
     note.append(
-        "Ellipses: semi-axes of the points' covariance (1σ holds 39 % of a two-dimensional "
-        "normal spread, 3σ 98.9 %); bearing of the major axis from north; east and north "
+        "Ellipses: semi-axes of the points' covariance (1σ holds 39% of a two-dimensional "
+        "normal spread, 3σ 98.9%); bearing of the major axis from north; east and north "
         "of the pad.\n"
     )
-    return Group(table, note, Text(IMPACT_CAUTION, style="yellow"))
+    return Group(fit(table), note, Text(IMPACT_CAUTION, style="yellow"))
 
 
 def margins_view(result: FlightResult, units: DisplayUnits) -> RenderableType:
@@ -738,17 +866,18 @@ def margins_view(result: FlightResult, units: DisplayUnits) -> RenderableType:
     verdict = result.verdict
     table = _table("Margins: how much worse the flight may be and still meet its target")
     table.add_column("Margin", no_wrap=True)
-    table.add_column("Amount", justify="right")
+    table.add_column("Amount", justify="right", no_wrap=True)  # a number with its unit
     table.add_column("Share", justify="right")
     table.add_column(_head("As ideal Δv", "speed", units), justify="right")
     table.add_column("Judged", justify="left", no_wrap=True)
 
-    def signed(value: float, dimension: str) -> str:
-        text = _q(value, dimension, units)
+    def plus(value: float, text: str) -> str:
         return f"+{text}" if math.isfinite(value) and value > 0 else text
 
-    def share(value: float, digits: int = 1) -> str:
-        return f"{value:+.{digits}%}" if math.isfinite(value) else ""
+    def amount(value: float, dimension: str) -> str:
+        if verdict.target == "circular_orbit" and dimension == "length":
+            return plus(value, orbit_length(value, units))
+        return plus(value, _with_unit(value, dimension, units))
 
     def judged(name: str) -> str:
         if verdict.judge != name:
@@ -760,39 +889,47 @@ def margins_view(result: FlightResult, units: DisplayUnits) -> RenderableType:
         "burnout_speed": "target: burnout speed",
         "circular_orbit": "target: inside the band",
     }.get(verdict.target, "target")
-    unit = units.label(verdict.dimension)
-    table.add_row(
-        what,
-        f"{signed(verdict.target_margin, verdict.dimension)} {unit}",
-        share(verdict.target_margin_fraction),
-        "",
-        judged("target"),
+    searched = math.isfinite(verdict.propulsion_margin) or math.isfinite(verdict.payload_margin)
+    # each column with one count of decimals: the shares in percent, the delta-v
+    target_share, payload_share = (
+        f"{v:+.1%}" if math.isfinite(v) else ""
+        for v in (verdict.target_margin_fraction, verdict.payload_margin_fraction)
     )
-    if math.isfinite(verdict.propulsion_margin) or math.isfinite(verdict.payload_margin):
+    as_delta_v = [verdict.propulsion_margin_delta_v, verdict.payload_margin_delta_v]
+    propulsion_dv, payload_dv = (
+        plus(v, text)
+        for v, text in zip(as_delta_v, _column(as_delta_v, "speed", units), strict=True)
+    )
+    table.add_row(
+        what, amount(verdict.target_margin, verdict.dimension), target_share, "", judged("target")
+    )
+    if searched:
         more = "" if verdict.propulsion_bounded else "> "
         table.add_row(
             "propulsion: impulse lost",
             f"{more}{verdict.propulsion_margin:.1%}",
             "",
-            f"{more}{signed(verdict.propulsion_margin_delta_v, 'speed')}",
+            f"{more}{propulsion_dv}",
             judged("propulsion"),
         )
         more = "" if verdict.payload_bounded else "> "
         table.add_row(
             "payload: mass added",
-            f"{more}{signed(verdict.payload_margin, 'mass')} {units.label('mass')}",
-            share(verdict.payload_margin_fraction, 0),
-            f"{more}{signed(verdict.payload_margin_delta_v, 'speed')}",
+            f"{more}{amount(verdict.payload_margin, 'mass')}",
+            payload_share,
+            f"{more}{payload_dv}",
             judged("payload"),
         )
     else:
         table.add_row("propulsion, payload", "—", "", "", "not searched (--no-margin)")
-    return table
+    return fit(table)
 
 
 def _asked(verdict: FlightVerdict, units: DisplayUnits) -> str:
     def fmt(value: float, dimension: str) -> str:
-        return f"{_q(value, dimension, units, 3)} {units.label(dimension)}".strip()
+        if verdict.target == "circular_orbit" and dimension == "length":
+            return orbit_length(value, units)
+        return _with_unit(value, dimension, units, 3)
 
     return verdict.asked_text(fmt)
 
@@ -803,24 +940,22 @@ def sizing_view(result: SizingResult, units: DisplayUnits) -> RenderableType:
     ref = result.field
     dimension = "dimensionless" if ref.is_count else ref.dimension
     unit = "" if ref.is_count else units.label(dimension)
-    target_unit = units.label(result.target_dimension)
 
-    def value(number: float) -> str:
-        if not math.isfinite(number):
-            return "—"
+    def values(numbers: Sequence[float], digits: int = 5) -> list[str]:
         if ref.is_count:
-            return f"{number:.0f}"
-        return _q(number, dimension, units, 5)
+            return [f"{n:,.0f}" if math.isfinite(n) else "—" for n in numbers]
+        return _column(numbers, dimension, units, digits)
 
     solutions = (result.budget, result.flight)
-    per = f"per {ref.si_unit or 'unit'}"
-    target_unit_si = {"length": "m", "speed": "m/s"}.get(result.target_dimension, "")
-    if result.target_kind == "circular_orbit":
-        target_unit_si = "m/s"  # an orbit is sized on the delta-v left after the later legs
-    if result.target_kind == "circular_orbit":
-        flight_quantity = "m/s of delta-v margin"
-    else:
-        flight_quantity = f"{target_unit_si} of {result.target_kind}"
+    orbit = result.target_kind == "circular_orbit"
+    # what the flight's root is found on: the target's quantity, or for an orbit the
+    # delta-v left after the later legs
+    flight_dimension = "speed" if orbit else result.target_dimension
+    flight_quantity = {
+        "apogee": "the apogee",
+        "burnout_speed": "the burnout speed",
+        "circular_orbit": "the delta-v left after the later legs",
+    }.get(result.target_kind, "the target's quantity")
     budget_scale = (
         max(abs(result.budget_result.verdict.total_required), 1.0)
         if (result.budget_result is not None)
@@ -828,14 +963,22 @@ def sizing_view(result: SizingResult, units: DisplayUnits) -> RenderableType:
     )
     flight_scale = max(abs(result.target_value), 1.0)
 
-    def settled(number: float, scale: float) -> str:
+    def settled(number: float, scale: float, dim: str) -> str:
         # at a root the margin is zero to the root finder's tolerance: show 0, not round-off
-        if math.isfinite(number) and abs(number) <= 1e-6 * scale:
-            number = 0.0
-        return _num(number, 3)
+        if not math.isfinite(number):
+            return "—"
+        return _with_unit(0.0 if abs(number) <= 1e-6 * scale else number, dim, units, 3)
 
-    def either(number: float, text: str) -> str:
-        return text if math.isfinite(number) else "—"
+    # per display unit of the field: (display unit of the quantity) / (display unit of the
+    # field), so "-1,516 m per kg" and "-2,264 ft per lb" say the same
+    per_unit = 1.0 if ref.is_count else to_display(1.0, dimension, units)
+    per = "per unit" if ref.is_count or not unit else f"per {unit}"
+
+    def quantity(number: float, dim: str, digits: int = 4) -> str:
+        return _with_unit(number, dim, units, digits) if math.isfinite(number) else "—"
+
+    def rate(number: float, dim: str) -> str:
+        return quantity(number / per_unit, dim, 3)
 
     def outcome(solution: SizingSolution) -> str:
         if solution.found:
@@ -843,66 +986,62 @@ def sizing_view(result: SizingResult, units: DisplayUnits) -> RenderableType:
         return "out of reach" if math.isfinite(solution.peak_value) else "not found"
 
     rows: list[tuple[str, str, Sequence[str]]] = [
-        ("Solved value", unit, [value(s.value) for s in solutions]),
-        ("Current value", unit, [value(result.initial_value)] * 2),
+        ("Solved value", unit, values([s.value for s in solutions])),
+        ("Current value", unit, [_plain(result.initial_value, dimension, units, 5)] * 2),
         (
-            "Margin at the solution",
+            "Margin beyond the asked",
             "",
             [
-                either(
-                    result.budget.margin,
-                    f"{settled(result.budget.margin, budget_scale)} m/s beyond the asked",
-                ),
-                either(
-                    result.flight.margin,
-                    f"{settled(result.flight.margin, flight_scale)} {target_unit_si} "
-                    "beyond the asked",
-                ),
+                settled(result.budget.margin, budget_scale, "speed"),
+                settled(result.flight.margin, flight_scale, flight_dimension),
             ],
         ),
         (
-            "Sensitivity",
+            f"Sensitivity ({per})",
             "",
             [
-                either(
-                    result.budget.sensitivity,
-                    f"{_num(result.budget.sensitivity, 3)} m/s of Δv margin {per}",
-                ),
-                either(
-                    result.flight.sensitivity,
-                    f"{_num(result.flight.sensitivity, 3)} {flight_quantity} {per}",
-                ),
+                rate(result.budget.sensitivity, "speed"),
+                rate(result.flight.sensitivity, flight_dimension),
             ],
         ),
-        ("Evaluations", "", [str(s.evaluations) for s in solutions]),
+        ("Evaluations", "", [f"{s.evaluations:,}" for s in solutions]),
         ("Result", "", [outcome(s) for s in solutions]),
     ]
     if any(math.isfinite(s.peak_value) for s in solutions):
         rows += [
-            ("Peak inside the range", unit, [value(s.peak_value) for s in solutions]),
+            ("Peak inside the range", unit, values([s.peak_value for s in solutions])),
             (
                 "Best reachable there",
                 "",
                 [
-                    f"{_num(result.budget.peak_achieved, 4)} m/s of ideal Δv"
-                    if math.isfinite(result.budget.peak_achieved)
-                    else "—",
-                    f"{_num(result.flight.peak_achieved, 4)} {flight_quantity}"
-                    if math.isfinite(result.flight.peak_achieved)
-                    else "—",
+                    quantity(result.budget.peak_achieved, "speed"),
+                    quantity(result.flight.peak_achieved, flight_dimension),
                 ],
             ),
         ]
+    if orbit:
+        wanted = orbit_length(result.target_value, units)
+    else:
+        wanted = _with_unit(result.target_value, result.target_dimension, units)
     parts.append(
         _sheet(
-            f"Sizing {ref.name} for the {result.target_kind} target "
-            f"({_q(result.target_value, result.target_dimension, units)} {target_unit})",
-            ["ideal budget (loss allowance)", "flight simulation"],
+            f"Sizing {ref.name} for the {target_name(result.target_kind)} target ({wanted})",
+            ["ideal budget", "flight simulation"],
             rows,
             emphasise=["Solved value"],
         )
     )
     how = Text(style="dim")
+    how.append("The ideal budget counts the legs' loss allowances for the losses. ")
+    reached = ""
+    if any(math.isfinite(s.peak_value) for s in solutions):
+        reached = (
+            f"; best reachable: the budget's ideal delta-v, the flight's {flight_quantity[4:]}"
+        )
+    how.append(
+        f"Sensitivity: the change of the budget's delta-v margin, and of {flight_quantity} "
+        f"flown, {per} of {ref.name}{reached}.\n"
+    )
     how.append(f"Budget: {result.budget.message}.\nFlight: {result.flight.message}.\n")
     parts.append(how)
     parts.append(Text(f"Assumption: {result.inert_rule}.", style="dim"))
@@ -913,11 +1052,28 @@ def sizing_view(result: SizingResult, units: DisplayUnits) -> RenderableType:
         flown = result.flight_result
 
         def fmt(number: float, dim: str) -> str:
-            return f"{_num(to_display(number, dim, units), 4)} {units.label(dim)}".strip()
+            if orbit and dim == "length":
+                return orbit_length(number, units)
+            return _with_unit(number, dim, units)
 
         parts.append(
-            verdict_text(flown.verdict.meets_targets, "Flight: " + flown.verdict.describe(fmt))
+            verdict_text(
+                flown.verdict.meets_targets,
+                "Flight: " + flown.verdict.describe(fmt),
+                FAIL_MARKS.get(flown.verdict.miss, "SHORT"),
+            )
         )
+        if flown.verdict.miss == "margin" and result.flight.found:
+            # the solution is where the margin just equals the asked one: either side of
+            # it by the root finders' tolerance
+            parts.append(
+                Text(
+                    "At the solution the margin equals the one asked for, to the root "
+                    "finders' tolerance: a hair either side of it reads as enough or too "
+                    "little.",
+                    style="dim",
+                )
+            )
     parts.append(caution_panel())
     return Group(*parts)
 
@@ -929,15 +1085,15 @@ def split_view(result: SplitResult, units: DisplayUnits) -> RenderableType:
     names = [stage.name for stage in result.mission.vehicle.stages]
 
     def dv(values: Iterable[float]) -> list[str]:
-        return [_q(float(v), "speed", units) for v in values]
+        return _column(values, "speed", units)
 
     def kg(values: Iterable[float]) -> list[str]:
-        return [_q(float(v), "mass", units) for v in values]
+        return _column(values, "mass", units)
 
     lagrange, direct, loss = result.lagrange, result.direct, result.loss_aware
     rows: list[tuple[str, str, Sequence[str]]] = [
-        ("Specific impulse (vacuum)", "s", [_num(float(v)) for v in result.specific_impulse]),
-        ("Structural coefficient", "", [_num(float(v), 3) for v in result.structural_coefficient]),
+        ("Specific impulse (vacuum)", "s", _column(result.specific_impulse, None, units)),
+        ("Structural coefficient", "", _column(result.structural_coefficient, None, units, 3)),
         ("Δv, current design", speed, dv(result.current_delta_v)),
         ("Δv, Lagrange optimum", speed, dv(lagrange.delta_v)),
         ("Δv, direct optimisation", speed, dv(direct.delta_v)),
@@ -950,19 +1106,26 @@ def split_view(result: SplitResult, units: DisplayUnits) -> RenderableType:
         ]
     parts.append(
         _sheet(
-            f"Splitting {_q(result.required_delta_v, 'speed', units)} {speed} between the stages",
+            f"Splitting {_with_unit(result.required_delta_v, 'speed', units)} between the stages",
             names,
             rows,
             emphasise=["Δv, Lagrange optimum"],
         )
     )
     summary = Text()
+    apart = abs(lagrange.liftoff_mass / direct.liftoff_mass - 1)
+    # the command calls the two optima the same within one part in a million
+    agreement = (
+        "they agree (within one part in a million)"
+        if apart < 1e-6
+        else f"they differ by {format_plain(100 * apart, 2)}%"
+    )
     summary.append(
-        f"Liftoff mass: current {_q(result.current_liftoff_mass, 'mass', units)} {mass}; "
-        f"Lagrange optimum {_q(lagrange.liftoff_mass, 'mass', units)} {mass}; direct "
-        f"optimisation {_q(direct.liftoff_mass, 'mass', units)} {mass} "
+        f"Liftoff mass: current {_with_unit(result.current_liftoff_mass, 'mass', units)}; "
+        f"Lagrange optimum {_with_unit(lagrange.liftoff_mass, 'mass', units)}; direct "
+        f"optimisation {_with_unit(direct.liftoff_mass, 'mass', units)} "
         f"({'converged' if direct.converged else 'NOT converged: ' + direct.message}); "
-        f"they differ by {abs(lagrange.liftoff_mass / direct.liftoff_mass - 1):.1e} relative."
+        f"{agreement}."
     )
     if loss is not None:
         if loss.found:
@@ -970,9 +1133,9 @@ def split_view(result: SplitResult, units: DisplayUnits) -> RenderableType:
             ideal_share = float(lagrange.delta_v[0] / lagrange.delta_v.sum())
             summary.append(
                 "\nLoss-aware optimum (flown): liftoff mass "
-                f"{_q(loss.liftoff_mass, 'mass', units)} {mass}, first stage's share "
+                f"{_with_unit(loss.liftoff_mass, 'mass', units)}, first stage's share "
                 f"{share:.1%} of the delta-v against {ideal_share:.1%} "
-                f"ideally ({loss.flights} flights; {loss.message})."
+                f"ideally ({plural(loss.flights, 'flight')}; {loss.message})."
             )
         else:
             summary.append(f"\nLoss-aware optimum: not found ({loss.message}).")
@@ -983,24 +1146,25 @@ def split_view(result: SplitResult, units: DisplayUnits) -> RenderableType:
     counts.add_column("Payload fraction", justify="right")
     counts.add_column(_head("Δv per stage", "speed", units))
     counts.add_column(_head("Margin at current liftoff mass", "speed", units), justify="right")
-    for solution, margin in zip(result.counts, result.count_margins, strict=True):
-        if solution.feasible:
-            counts.add_row(
-                str(solution.stage_count),
-                _q(solution.liftoff_mass, "mass", units),
-                _num(solution.payload_fraction, 3),
-                ", ".join(dv(solution.delta_v)),
-                _q(margin, "speed", units),
-            )
-        else:
-            counts.add_row(
-                str(solution.stage_count),
-                "—",
-                "—",
-                "cannot reach the requirement",
-                _q(margin, "speed", units),
-            )
-    parts.append(counts)
+    liftoff = _column(
+        [s.liftoff_mass if s.feasible else math.nan for s in result.counts], "mass", units
+    )
+    fraction = _column(
+        [s.payload_fraction if s.feasible else math.nan for s in result.counts], None, units, 3
+    )
+    margin = _column(result.count_margins, "speed", units)
+    for index, solution in enumerate(result.counts):
+        counts.add_row(
+            str(solution.stage_count),
+            liftoff[index],
+            fraction[index],
+            # one stage's Δv from the next: " / " (the numbers carry thousands commas)
+            " / ".join(dv(solution.delta_v))
+            if solution.feasible
+            else "cannot reach the requirement",
+            margin[index],
+        )
+    parts.append(fit(counts))
     parts.append(Text("Assumptions: " + "; ".join(result.assumptions) + ".", style="dim"))
     parts.append(caution_panel())
     return Group(*parts)
@@ -1038,18 +1202,18 @@ def scatter_view(result: ScatterResult, units: DisplayUnits) -> RenderableType:
         table.add_column(f"p{p}", justify="right")
     margin_dimension = {"apogee": "length", "circular_orbit": "length"}.get(result.target, "speed")
 
-    def shown(value: float, dimension: str | None) -> str:
+    def shown(values: Sequence[float], dimension: str | None) -> list[str]:
+        """One output's figures, all with the same decimals (its percentiles and their
+        intervals together)."""
         if dimension == "degree":
-            if not math.isfinite(value):
-                return "—"
-            return f"{value:+.4f}" if abs(value) >= 5e-5 else "0"  # no round-off shown
+            # no round-off shown: within 0.00005 deg of zero is 0
+            return [
+                "—" if not math.isfinite(v) else (f"{v:+.4f}" if abs(v) >= 5e-5 else "0")
+                for v in values
+            ]
         if dimension == "percent":
-            if not math.isfinite(value):
-                return "—"
-            return f"{value:.1%}" if round(value * 1000) != 0 else "0.0%"
-        if dimension is None:
-            return _num(value, 4)
-        return _q(value, dimension, units)
+            return ["—" if not math.isfinite(v) else f"{v:.1%}" for v in values]
+        return _column(values, dimension, units)
 
     def unit_of(dimension: str | None) -> str:
         if dimension == "percent":
@@ -1069,25 +1233,26 @@ def scatter_view(result: ScatterResult, units: DisplayUnits) -> RenderableType:
         values = result.percentiles[metric]
         if not any(math.isfinite(values[p]) for p in PERCENTS):
             continue  # nothing to show (an apogee of an orbit, insertion of no guidance)
-        table.add_row(title, unit_of(dimension), *[shown(values[p], dimension) for p in PERCENTS])
-        if metric in ("margin", "propulsion_margin") and metric in result.intervals:
-            # the margins' percentiles carry their 95 % confidence intervals
+        figures = [values[p] for p in PERCENTS]
+        intervals = metric in ("margin", "propulsion_margin") and metric in result.intervals
+        if intervals:
+            # the margins' percentiles carry their 95% confidence intervals
             bounds = result.intervals[metric]
-            for side, name in ((0, "  95 % interval, low"), (1, "  95 % interval, high")):
-                table.add_row(
-                    name,
-                    "",
-                    *[shown(bounds[p][side], dimension) for p in PERCENTS],
-                    style="dim",
-                )
-    parts.append(table)
+            figures += [bounds[p][side] for side in (0, 1) for p in PERCENTS]
+        cells = shown(figures, dimension)
+        count = len(PERCENTS)
+        table.add_row(title, unit_of(dimension), *cells[:count])
+        if intervals:
+            for side, name in ((1, "  95% interval, low"), (2, "  95% interval, high")):
+                table.add_row(name, "", *cells[side * count : (side + 1) * count], style="dim")
+    parts.append(fit(table))
     low, high = result.interval
     text = Text()
     if math.isfinite(result.probability):
         text.append(
-            f"Probability of meeting the {result.target} target: {result.probability:.1%} "
-            f"({result.meets:,} of {result.valid:,}; 95 % Wilson interval {low:.1%} to "
-            f"{high:.1%}).",
+            f"Probability of meeting the {target_name(result.target)} target: "
+            f"{result.probability:.1%} ({result.meets:,} of {result.valid:,}; 95% Wilson "
+            f"interval {low:.1%} to {high:.1%}).",
             style="bold",
         )
     if result.misses:
@@ -1107,11 +1272,11 @@ def scatter_view(result: ScatterResult, units: DisplayUnits) -> RenderableType:
         reserve = result.reserve
         r_low, r_high = reserve.interval
         limits = (
-            f"95 % interval {r_low:.1%} to {r_high:.1%}"
+            f"95% interval {r_low:.1%} to {r_high:.1%}"
             if math.isfinite(r_low) and math.isfinite(r_high)
-            else "too few samples for its 95 % interval"
+            else "too few samples for its 95% interval"
         )
-        worth = f"{_q(abs(reserve.delta_v), 'speed', units)} {units.label('speed')} of ideal Δv"
+        worth = f"{_with_unit(abs(reserve.delta_v), 'speed', units)} of ideal Δv"
         if reserve.fraction >= 0:
             line = (
                 f"\nFlight-performance reserve: {reserve.probability:.1%} of the flights "
@@ -1130,14 +1295,16 @@ def scatter_view(result: ScatterResult, units: DisplayUnits) -> RenderableType:
         )
     invalid = result.samples - result.valid
     if invalid:
-        reasons = ", ".join(f"{name} {count}" for name, count in result.invalid_reasons.items())
+        reasons = ", ".join(f"{name} {count:,}" for name, count in result.invalid_reasons.items())
+        were = "was" if invalid == 1 else "were"
         text.append(
-            f"\n{invalid:,} sample(s) gave an impossible vehicle and were not flown ({reasons})."
+            f"\n{plural(invalid, 'sample')} gave an impossible vehicle and {were} not flown "
+            f"({reasons})."
         )
     if result.bad_ignitions:
         text.append(
-            f"\n{result.bad_ignitions:,} flight(s) lit an upper stage while descending, too "
-            "slow to steer, or tilted beyond 20 deg from vertical (see `propulsion fly`).",
+            f"\n{plural(result.bad_ignitions, 'flight')} lit an upper stage while descending, "
+            "too slow to steer, or tilted beyond 20 deg from vertical (see `propulsion fly`).",
             style="yellow",
         )
     source = (
@@ -1147,7 +1314,7 @@ def scatter_view(result: ScatterResult, units: DisplayUnits) -> RenderableType:
     )
     text.append(
         f"\nStatistics from {source}; "
-        f"{result.chunks} chunk(s) on {result.workers}, {result.elapsed:.1f} s.",
+        f"{plural(result.chunks, 'chunk')} on {result.workers}, {result.elapsed:.1f} s.",
         style="dim",
     )
     parts.append(text)
@@ -1155,11 +1322,12 @@ def scatter_view(result: ScatterResult, units: DisplayUnits) -> RenderableType:
         parts.append(footprint_view(result, units))
     if result.drivers:
         drivers = _table("What drives the spread (Spearman rank correlation)")
+        # the field as a [[dispersion]] table names it
         drivers.add_column("Dispersed field", no_wrap=True)
         drivers.add_column("with", style="dim")
         drivers.add_column("rho", justify="right")
         for name, output, rho in result.drivers[:6]:
             drivers.add_row(name, output, f"{rho:+.3f}")
-        parts.append(drivers)
+        parts.append(fit(drivers))
     parts.append(caution_panel())
     return Group(*parts)

@@ -27,6 +27,7 @@ from propulsion.impacts import footprint as footprint_of
 from propulsion.mission import Mission, parse_mission
 from propulsion.studies.dispersion import Sampler, draw
 from propulsion.studies.statistics import quantile_interval, spearman, wilson_interval
+from propulsion.text import plural
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -550,7 +551,7 @@ def check_study(samples: int, seed: int, workers: int | None = None) -> None:
     cores = available_threads()
     if workers is not None and not 1 <= workers <= WORKERS_PER_CORE * cores:
         raise RequestError(
-            f"{workers} threads on {cores} core(s) is out of range",
+            f"{workers} threads on {plural(cores, 'core')} is out of range",
             f"from 1 to {WORKERS_PER_CORE * cores} threads ({WORKERS_PER_CORE} per core)",
         )
 
