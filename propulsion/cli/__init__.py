@@ -72,36 +72,30 @@ def _plain_flags(params: list[Any]) -> None:
             param.help = plain_help(param.help)
 
 
-class _Command(TyperCommand):
+class _PlainHelp:
+    """Plain, rewrapped help with no placeholder on flags, for a command or the group."""
+
+    params: list[Any]
+
+    def __init__(self, *args: Any, **kwargs: Any) -> None:
+        kwargs["help"] = plain_help(kwargs.get("help"))
+        super().__init__(*args, **kwargs)
+        _plain_flags(self.params)
+
+    def get_help_option(self, ctx: Any) -> Any:
+        """``--help``, a flag like the others."""
+        option = super().get_help_option(ctx)  # type: ignore[misc]
+        if option is not None and option.metavar is None:
+            option.metavar = ""
+        return option
+
+
+class _Command(_PlainHelp, TyperCommand):
     """A command whose help screen is plain text, rewrapped, with no placeholder on flags."""
 
-    def __init__(self, *args: Any, **kwargs: Any) -> None:
-        kwargs["help"] = plain_help(kwargs.get("help"))
-        super().__init__(*args, **kwargs)
-        _plain_flags(self.params)
 
-    def get_help_option(self, ctx: Any) -> Any:
-        """``--help``, a flag like the others."""
-        option = super().get_help_option(ctx)
-        if option is not None and option.metavar is None:
-            option.metavar = ""
-        return option
-
-
-class _Group(TyperGroup):
+class _Group(_PlainHelp, TyperGroup):
     """The main command, with the same plain help as :class:`_Command`."""
-
-    def __init__(self, *args: Any, **kwargs: Any) -> None:
-        kwargs["help"] = plain_help(kwargs.get("help"))
-        super().__init__(*args, **kwargs)
-        _plain_flags(self.params)
-
-    def get_help_option(self, ctx: Any) -> Any:
-        """``--help``, a flag like the others."""
-        option = super().get_help_option(ctx)
-        if option is not None and option.metavar is None:
-            option.metavar = ""
-        return option
 
 
 app = typer.Typer(
