@@ -421,10 +421,11 @@ def size(
         core = flight.build_core(candidate, ascent.flown_stages(candidate))
         target_ = margins.Target(candidate, core)
         held, offset = margins.hold_margin(candidate, core, target_)
-        if kind == "circular_orbit":
+        if kind == "circular_orbit" and not core.kick_chosen:
             # an open-loop pitch programme suits one vehicle only: re-tune the kick for
             # each candidate (one batched flight over kick angles) so the sizing compares
-            # each vehicle flown its best
+            # each vehicle flown its best (a guided flight whose kick the file leaves open
+            # had it chosen by build_core already, below)
             _, left = ascent.tune_kick(candidate, count=25, core=held)
             note(f"flight at {value:.6g}")
             if not math.isfinite(left):
@@ -472,7 +473,13 @@ def size(
         if kind == "circular_orbit":
             solved_core = flight.build_core(solved, ascent.flown_stages(solved))
             held, _ = margins.hold_margin(solved, solved_core, margins.Target(solved, solved_core))
-            angle, _ = ascent.tune_kick(solved, count=25, core=held)
+            # guided with the kick left open, build_core chose it already (most propellant
+            # left); an open-loop kick is tuned here
+            angle = (
+                float(solved_core.kick_angle[0])
+                if solved_core.kick_chosen
+                else ascent.tune_kick(solved, count=25, core=held)[0]
+            )
             kick = fields.FieldRef(
                 "flight.pitch_kick_angle", ("flight", "pitch_kick_angle"), "angle"
             )
@@ -481,9 +488,8 @@ def size(
                 source=mission.source,
                 base_dir=problem.base,
             )
-            message += (
-                f"; pitch kick re-tuned for each candidate (here {math.degrees(angle):.2f} deg)"
-            )
+            how = "chosen" if solved_core.kick_chosen else "re-tuned"
+            message += f"; pitch kick {how} for each candidate (here {math.degrees(angle):.2f} deg)"
         flight_result = ascent.fly(solved)
     flight_solution = SizingSolution(
         method="flight simulation",
